@@ -1,0 +1,1 @@
+//! Collision and clearance queries. OWNER: collision helper. To be written.

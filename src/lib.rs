@@ -1,0 +1,19 @@
+//! Clamber plans motions for robots that hold on to the world while they move.
+//!
+//! This crate is built up in layers, each a module with one concept (see ARCHITECTURE.md):
+//! - [`model`]: robot models as plain immutable data (links, joints, limits, effectors, shapes);
+//! - [`robot_file`]: reading robot files (our TOML format, URDF) and writing URDF;
+//! - [`configuration`]: operations on configurations `q` (integrate, difference, sample);
+//! - [`kinematics`]: forward kinematics and Jacobians, pure functions of `q`;
+//! - [`collision`]: collision and clearance queries through parry3d.
+
+pub mod collision;
+pub mod configuration;
+pub mod kinematics;
+pub mod math;
+pub mod model;
+pub mod robot_file;
+pub mod report;
+
+pub use math::Pose;
+pub use model::{Robot, RobotSpec};

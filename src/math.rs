@@ -1,0 +1,55 @@
+//! Small rigid-body helpers on top of nalgebra: the pose type used everywhere and the
+//! SO(3) exponential/logarithm used by the floating joint.
+
+use nalgebra::{IsometryMatrix3, Matrix3, Rotation3, Translation3, UnitQuaternion, Vector3};
+
+/// A rigid transform. Rotation is stored as a 3x3 matrix: composing and rotating vectors
+/// with a matrix is cheaper than with a quaternion, and FK does little else.
+pub type Pose = IsometryMatrix3<f64>;
+
+/// Pose from a translation and roll-pitch-yaw angles (URDF convention: fixed axes X, then Y, then Z).
+pub fn pose_from_xyz_rpy(xyz: [f64; 3], rpy: [f64; 3]) -> Pose {
+    Pose::from_parts(
+        Translation3::new(xyz[0], xyz[1], xyz[2]),
+        Rotation3::from_euler_angles(rpy[0], rpy[1], rpy[2]),
+    )
+}
+
+/// Roll-pitch-yaw of a rotation (URDF convention). Only used for writing files; the
+/// model never stores Euler angles.
+pub fn rpy_of(r: &Rotation3<f64>) -> [f64; 3] {
+    let (r, p, y) = r.euler_angles();
+    [r, p, y]
+}
+
+/// Rotation about a unit axis by `angle` (Rodrigues' formula), written out because it is on
+/// the FK hot path and avoids building an intermediate quaternion.
+#[inline]
+pub fn axis_angle(axis: &Vector3<f64>, angle: f64) -> Rotation3<f64> {
+    let (s, c) = angle.sin_cos();
+    let t = 1.0 - c;
+    let (x, y, z) = (axis.x, axis.y, axis.z);
+    Rotation3::from_matrix_unchecked(Matrix3::new(
+        t * x * x + c,
+        t * x * y - s * z,
+        t * x * z + s * y,
+        t * x * y + s * z,
+        t * y * y + c,
+        t * y * z - s * x,
+        t * x * z - s * y,
+        t * y * z + s * x,
+        t * z * z + c,
+    ))
+}
+
+/// Exponential map of so(3): rotation vector to unit quaternion.
+#[inline]
+pub fn so3_exp(w: &Vector3<f64>) -> UnitQuaternion<f64> {
+    UnitQuaternion::from_scaled_axis(*w)
+}
+
+/// Logarithm of SO(3) on the shortest arc (angle in [0, pi]).
+#[inline]
+pub fn so3_log(q: &UnitQuaternion<f64>) -> Vector3<f64> {
+    q.scaled_axis()
+}

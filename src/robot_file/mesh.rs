@@ -1,0 +1,1 @@
+//! Mesh files (STL, OBJ) read into convex hulls or triangle meshes. OWNER: urdf helper. To be written.

@@ -1,0 +1,66 @@
+//! Robot files: our own TOML format ([`toml_format`], documented in `docs/robot-format.md`)
+//! and URDF ([`urdf`]), both read into a [`RobotSpec`] and built into a [`Robot`]; URDF
+//! can also be written from any loaded robot. Meshes referenced by either are read by
+//! [`mesh`].
+
+use std::path::{Path, PathBuf};
+
+use thiserror::Error;
+
+use crate::model::{ModelError, Robot, RobotSpec};
+
+pub mod mesh;
+pub mod toml_format;
+pub mod urdf;
+
+/// A robot file that could not be loaded. Every variant names the file; those about one
+/// place give its line and column (1-based) and the field at fault.
+#[derive(Debug, Error)]
+#[non_exhaustive]
+pub enum RobotFileError {
+    #[error("{path}: cannot read the file: {source}")]
+    Io { path: PathBuf, source: std::io::Error },
+    #[error("{path}: unknown robot file type; expected a `.toml` or `.urdf` file")]
+    UnknownFormat { path: PathBuf },
+    /// Malformed TOML or XML, or a value of the wrong type or form.
+    #[error("{path}:{line}:{column}: {message}")]
+    Syntax { path: PathBuf, line: usize, column: usize, message: String },
+    /// Well-formed file whose content cannot make a robot.
+    #[error("{path}:{line}:{column}: `{field}`: {source}")]
+    Model { path: PathBuf, line: usize, column: usize, field: String, source: ModelError },
+    /// A mesh file referenced by the robot file is missing or unreadable.
+    #[error("{path}:{line}:{column}: `{field}`: mesh `{mesh}`: {message}")]
+    Mesh { path: PathBuf, line: usize, column: usize, field: String, mesh: PathBuf, message: String },
+}
+
+impl RobotFileError {
+    /// (line, column) of the fault in the robot file, when there is one.
+    pub fn position(&self) -> Option<(usize, usize)> {
+        match self {
+            RobotFileError::Syntax { line, column, .. }
+            | RobotFileError::Model { line, column, .. }
+            | RobotFileError::Mesh { line, column, .. } => Some((*line, *column)),
+            _ => None,
+        }
+    }
+}
+
+/// Read a robot description from a `.toml` or `.urdf` file without building it.
+pub fn load_robot_spec(path: &Path) -> Result<RobotSpec, RobotFileError> {
+    let text = std::fs::read_to_string(path).map_err(|source| RobotFileError::Io { path: path.to_path_buf(), source })?;
+    match path.extension().and_then(|e| e.to_str()).map(|e| e.to_ascii_lowercase()).as_deref() {
+        Some("toml") => toml_format::parse(&text, path).map(|(spec, _)| spec),
+        Some("urdf") | Some("xml") => urdf::parse(&text, path).map(|(spec, _)| spec),
+        _ => Err(RobotFileError::UnknownFormat { path: path.to_path_buf() }),
+    }
+}
+
+/// Load and build a robot from a `.toml` or `.urdf` file.
+pub fn load_robot(path: &Path) -> Result<Robot, RobotFileError> {
+    let text = std::fs::read_to_string(path).map_err(|source| RobotFileError::Io { path: path.to_path_buf(), source })?;
+    match path.extension().and_then(|e| e.to_str()).map(|e| e.to_ascii_lowercase()).as_deref() {
+        Some("toml") => toml_format::load_str(&text, path),
+        Some("urdf") | Some("xml") => urdf::load_str(&text, path),
+        _ => Err(RobotFileError::UnknownFormat { path: path.to_path_buf() }),
+    }
+}
