@@ -1,0 +1,19 @@
+#!/usr/bin/env bash
+# Clamber's test command (the README's second command; CI runs it through .ci/run).
+# 1. every Rust test (unit, integration, property tests, doc tests);
+# 2. the reference check of FK and Jacobians against Pinocchio (PyPI `pin`), installed into
+#    a private virtual environment under target/ the first time.
+set -euo pipefail
+cd "$(dirname "$0")"
+
+echo "== cargo test"
+cargo test --workspace --all-targets
+cargo test --workspace --doc
+
+echo "== reference check against Pinocchio"
+venv=target/pyref
+if [ ! -x "$venv/bin/python" ] || ! "$venv/bin/python" -c "import pinocchio, numpy" 2>/dev/null; then
+    python3 -m venv "$venv"
+    "$venv/bin/pip" install --quiet --disable-pip-version-check -r reference/requirements.txt
+fi
+PYTHON="$venv/bin/python" bash reference/check_all.sh
