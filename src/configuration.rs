@@ -19,18 +19,34 @@ use crate::model::{JointKind, Robot};
 #[non_exhaustive]
 pub enum ConfigurationError {
     #[error("{what} has length {got}, the robot needs {expected}")]
-    Length { what: &'static str, got: usize, expected: usize },
+    Length {
+        what: &'static str,
+        got: usize,
+        expected: usize,
+    },
     #[error("coordinate {index} ({name}) is not finite: {value}")]
-    NotFinite { index: usize, name: String, value: f64 },
+    NotFinite {
+        index: usize,
+        name: String,
+        value: f64,
+    },
     #[error("joint `{joint}`: quaternion has norm {norm}, expected 1 (within 1e-6)")]
     NotUnit { joint: String, norm: f64 },
 }
 
-pub(crate) fn check_len(what: &'static str, got: usize, expected: usize) -> Result<(), ConfigurationError> {
+pub(crate) fn check_len(
+    what: &'static str,
+    got: usize,
+    expected: usize,
+) -> Result<(), ConfigurationError> {
     if got == expected {
         Ok(())
     } else {
-        Err(ConfigurationError::Length { what, got, expected })
+        Err(ConfigurationError::Length {
+            what,
+            got,
+            expected,
+        })
     }
 }
 
@@ -64,9 +80,16 @@ impl Robot {
                 }
             }
             if let JointKind::Floating = j.kind {
-                let n = q[j.q_index + 3..j.q_index + 7].iter().map(|x| x * x).sum::<f64>().sqrt();
+                let n = q[j.q_index + 3..j.q_index + 7]
+                    .iter()
+                    .map(|x| x * x)
+                    .sum::<f64>()
+                    .sqrt();
                 if (n - 1.0).abs() > 1e-6 {
-                    return Err(ConfigurationError::NotUnit { joint: j.name.clone(), norm: n });
+                    return Err(ConfigurationError::NotUnit {
+                        joint: j.name.clone(),
+                        norm: n,
+                    });
                 }
             }
         }
@@ -93,7 +116,12 @@ impl Robot {
     }
 
     /// `q ⊕ v`: move from `q` along tangent `v`. Writes into `out` (may not alias).
-    pub fn integrate(&self, q: &[f64], v: &[f64], out: &mut [f64]) -> Result<(), ConfigurationError> {
+    pub fn integrate(
+        &self,
+        q: &[f64],
+        v: &[f64],
+        out: &mut [f64],
+    ) -> Result<(), ConfigurationError> {
         check_len("configuration", q.len(), self.nq())?;
         check_len("tangent", v.len(), self.nv())?;
         check_len("output", out.len(), self.nq())?;
@@ -117,7 +145,12 @@ impl Robot {
     }
 
     /// `q1 ⊖ q0`: the tangent `v` with `q0 ⊕ v = q1` (shortest rotation for floating joints).
-    pub fn difference(&self, q0: &[f64], q1: &[f64], out: &mut [f64]) -> Result<(), ConfigurationError> {
+    pub fn difference(
+        &self,
+        q0: &[f64],
+        q1: &[f64],
+        out: &mut [f64],
+    ) -> Result<(), ConfigurationError> {
         check_len("configuration", q0.len(), self.nq())?;
         check_len("configuration", q1.len(), self.nq())?;
         check_len("output", out.len(), self.nv())?;
@@ -127,7 +160,11 @@ impl Robot {
                 JointKind::Floating => {
                     let r0 = quat_at(q0, qi);
                     let r1 = quat_at(q1, qi);
-                    let dp = Vector3::new(q1[qi] - q0[qi], q1[qi + 1] - q0[qi + 1], q1[qi + 2] - q0[qi + 2]);
+                    let dp = Vector3::new(
+                        q1[qi] - q0[qi],
+                        q1[qi + 1] - q0[qi + 1],
+                        q1[qi + 2] - q0[qi + 2],
+                    );
                     let lin = r0.inverse() * dp;
                     let ang = so3_log(&(r0.inverse() * r1));
                     out[vi..vi + 3].copy_from_slice(lin.as_slice());
@@ -142,7 +179,13 @@ impl Robot {
 
     /// Point at fraction `t` of the way from `q0` to `q1`: linear for Euclidean joints and
     /// for floating translation, slerp for floating rotation.
-    pub fn interpolate(&self, q0: &[f64], q1: &[f64], t: f64, out: &mut [f64]) -> Result<(), ConfigurationError> {
+    pub fn interpolate(
+        &self,
+        q0: &[f64],
+        q1: &[f64],
+        t: f64,
+        out: &mut [f64],
+    ) -> Result<(), ConfigurationError> {
         check_len("configuration", q0.len(), self.nq())?;
         check_len("configuration", q1.len(), self.nq())?;
         check_len("output", out.len(), self.nq())?;
@@ -196,7 +239,12 @@ impl Robot {
                 }
                 JointKind::Fixed => {}
                 JointKind::Revolute { .. } => {
-                    q[qi] = uniform_in(rng, j.limits[0].lower, j.limits[0].upper, std::f64::consts::PI)
+                    q[qi] = uniform_in(
+                        rng,
+                        j.limits[0].lower,
+                        j.limits[0].upper,
+                        std::f64::consts::PI,
+                    )
                 }
                 _ => q[qi] = uniform_in(rng, j.limits[0].lower, j.limits[0].upper, 1.0),
             }
@@ -220,24 +268,34 @@ impl Robot {
             })
     }
 
-    /// Clamp every bounded coordinate into its limits and renormalize quaternions.
-    pub fn clamp_to_limits(&self, q: &mut [f64]) {
+    /// Clamp every bounded coordinate into its limits and renormalize quaternions. Returns
+    /// true if a coordinate was outside its limits (renormalizing does not count).
+    pub fn clamp_to_limits(&self, q: &mut [f64]) -> bool {
         if q.len() != self.nq() {
-            return;
+            return false;
         }
+        let mut moved = false;
+        let mut clamp = |x: &mut f64, lo: f64, hi: f64| {
+            let c = x.clamp(lo, hi);
+            if c != *x {
+                moved = true;
+                *x = c;
+            }
+        };
         for j in self.joints() {
             match j.kind {
                 JointKind::Floating => {
                     for k in 0..3 {
-                        q[j.q_index + k] = q[j.q_index + k].clamp(j.limits[k].lower, j.limits[k].upper);
+                        clamp(&mut q[j.q_index + k], j.limits[k].lower, j.limits[k].upper);
                     }
                     let r = quat_at(q, j.q_index);
                     put_quat(q, j.q_index, &r);
                 }
                 JointKind::Fixed => {}
-                _ => q[j.q_index] = q[j.q_index].clamp(j.limits[0].lower, j.limits[0].upper),
+                _ => clamp(&mut q[j.q_index], j.limits[0].lower, j.limits[0].upper),
             }
         }
+        moved
     }
 }
 

@@ -6,7 +6,7 @@
 //! frame, both expressed in world axes; column `k` is the effect of tangent coordinate `k`
 //! (for a floating joint: body-frame linear then angular velocity).
 
-use nalgebra::{DMatrix, Point3, Translation3, UnitQuaternion, Vector3, Quaternion};
+use nalgebra::{DMatrix, Point3, Quaternion, Translation3, UnitQuaternion, Vector3};
 use thiserror::Error;
 
 use crate::configuration::{check_len, ConfigurationError};
@@ -22,7 +22,12 @@ pub enum KinematicsError {
     #[error("pose buffer has {got} entries, the robot has {expected} links")]
     PoseBuffer { got: usize, expected: usize },
     #[error("Jacobian buffer is {rows}x{cols}, expected {expected_rows}x{expected_cols}")]
-    JacobianShape { rows: usize, cols: usize, expected_rows: usize, expected_cols: usize },
+    JacobianShape {
+        rows: usize,
+        cols: usize,
+        expected_rows: usize,
+        expected_cols: usize,
+    },
     #[error("link id {0} is out of range")]
     NoSuchLink(LinkId),
 }
@@ -32,12 +37,25 @@ pub enum KinematicsError {
 fn joint_motion(j: &Joint, q: &[f64]) -> Pose {
     let i = j.q_index;
     match &j.kind {
-        JointKind::Revolute { axis } => Pose::from_parts(Translation3::identity(), axis_angle(axis, q[i])),
-        JointKind::Prismatic { axis } => Pose::from_parts(Translation3::from(axis.into_inner() * q[i]), Default::default()),
+        JointKind::Revolute { axis } => {
+            Pose::from_parts(Translation3::identity(), axis_angle(axis, q[i]))
+        }
+        JointKind::Prismatic { axis } => Pose::from_parts(
+            Translation3::from(axis.into_inner() * q[i]),
+            Default::default(),
+        ),
         JointKind::Fixed => Pose::identity(),
         JointKind::Floating => {
-            let r = UnitQuaternion::new_normalize(Quaternion::new(q[i + 6], q[i + 3], q[i + 4], q[i + 5]));
-            Pose::from_parts(Translation3::new(q[i], q[i + 1], q[i + 2]), r.to_rotation_matrix())
+            let r = UnitQuaternion::new_normalize(Quaternion::new(
+                q[i + 6],
+                q[i + 3],
+                q[i + 4],
+                q[i + 5],
+            ));
+            Pose::from_parts(
+                Translation3::new(q[i], q[i + 1], q[i + 2]),
+                r.to_rotation_matrix(),
+            )
         }
     }
 }
@@ -45,10 +63,17 @@ fn joint_motion(j: &Joint, q: &[f64]) -> Pose {
 /// World pose of every link at `q`, in one pass over the tree (root at the world origin).
 /// `poses` must have one entry per link. `q` is not checked for unit quaternions (they are
 /// normalized on the fly); use [`Robot::check_configuration`] on untrusted input.
-pub fn forward_kinematics(robot: &Robot, q: &[f64], poses: &mut [Pose]) -> Result<(), KinematicsError> {
+pub fn forward_kinematics(
+    robot: &Robot,
+    q: &[f64],
+    poses: &mut [Pose],
+) -> Result<(), KinematicsError> {
     check_len("configuration", q.len(), robot.nq())?;
     if poses.len() != robot.links().len() {
-        return Err(KinematicsError::PoseBuffer { got: poses.len(), expected: robot.links().len() });
+        return Err(KinematicsError::PoseBuffer {
+            got: poses.len(),
+            expected: robot.links().len(),
+        });
     }
     poses[0] = Pose::identity();
     for j in robot.joints() {
@@ -59,9 +84,18 @@ pub fn forward_kinematics(robot: &Robot, q: &[f64], poses: &mut [Pose]) -> Resul
     Ok(())
 }
 
-fn check_jacobian(robot: &Robot, poses: &[Pose], link: LinkId, jac: &DMatrix<f64>, rows: usize) -> Result<(), KinematicsError> {
+fn check_jacobian(
+    robot: &Robot,
+    poses: &[Pose],
+    link: LinkId,
+    jac: &DMatrix<f64>,
+    rows: usize,
+) -> Result<(), KinematicsError> {
     if poses.len() != robot.links().len() {
-        return Err(KinematicsError::PoseBuffer { got: poses.len(), expected: robot.links().len() });
+        return Err(KinematicsError::PoseBuffer {
+            got: poses.len(),
+            expected: robot.links().len(),
+        });
     }
     if link >= robot.links().len() {
         return Err(KinematicsError::NoSuchLink(link));
@@ -81,7 +115,14 @@ fn check_jacobian(robot: &Robot, poses: &[Pose], link: LinkId, jac: &DMatrix<f64
 /// each joint's column(s) for the point `p` (world) into `jac`; `angular` also writes rows
 /// 3..6.
 #[inline]
-fn fill_columns(robot: &Robot, poses: &[Pose], link: LinkId, p: &Point3<f64>, jac: &mut DMatrix<f64>, angular: bool) {
+fn fill_columns(
+    robot: &Robot,
+    poses: &[Pose],
+    link: LinkId,
+    p: &Point3<f64>,
+    jac: &mut DMatrix<f64>,
+    angular: bool,
+) {
     jac.fill(0.0);
     let mut l = link;
     while let Some(ji) = robot.links()[l].parent_joint {
@@ -105,7 +146,9 @@ fn fill_columns(robot: &Robot, poses: &[Pose], link: LinkId, p: &Point3<f64>, ja
                 let w = r * axis.into_inner();
                 put(j.v_index, w.cross(&arm), w);
             }
-            JointKind::Prismatic { axis } => put(j.v_index, r * axis.into_inner(), Vector3::zeros()),
+            JointKind::Prismatic { axis } => {
+                put(j.v_index, r * axis.into_inner(), Vector3::zeros())
+            }
             JointKind::Fixed => {}
             JointKind::Floating => {
                 for k in 0..3 {

@@ -9,11 +9,14 @@
 
 pub mod collision;
 pub mod configuration;
+pub mod constraint;
 pub mod kinematics;
 pub mod math;
 pub mod model;
-pub mod robot_file;
+pub mod projection;
 pub mod report;
+pub mod robot_file;
+pub mod walk;
 
 pub use math::Pose;
 pub use model::{Robot, RobotSpec};

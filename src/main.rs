@@ -6,7 +6,11 @@ use anyhow::Result;
 use clap::{Parser, Subcommand};
 
 #[derive(Parser)]
-#[command(name = "clamber", version, about = "Plans verified motions for robots that hold on to the world while they move")]
+#[command(
+    name = "clamber",
+    version,
+    about = "Plans verified motions for robots that hold on to the world while they move"
+)]
 struct Cli {
     #[command(subcommand)]
     command: Command,

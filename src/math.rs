@@ -53,3 +53,33 @@ pub fn so3_exp(w: &Vector3<f64>) -> UnitQuaternion<f64> {
 pub fn so3_log(q: &UnitQuaternion<f64>) -> Vector3<f64> {
     q.scaled_axis()
 }
+
+/// Skew-symmetric matrix `[w]x` with `[w]x v = w x v`.
+#[inline]
+pub fn skew(w: &Vector3<f64>) -> Matrix3<f64> {
+    Matrix3::new(0.0, -w.z, w.y, w.z, 0.0, -w.x, -w.y, w.x, 0.0)
+}
+
+/// Logarithm of a rotation matrix (rotation vector, angle in [0, pi]).
+#[inline]
+pub fn rotation_log(r: &Rotation3<f64>) -> Vector3<f64> {
+    UnitQuaternion::from_rotation_matrix(r).scaled_axis()
+}
+
+/// Inverse of the right Jacobian of SO(3) at rotation vector `phi`:
+/// `d/dt log(R) = Jr^-1(log R) * w_body` when `dR/dt = R [w_body]x`.
+/// Closed form from J. Sola, J. Deray, D. Atchuthan, "A micro Lie theory for state
+/// estimation in robotics" (2018), eq. (144): `Jr^-1 = I + 1/2 [phi]x +
+/// (1/theta^2 - (1 + cos theta) / (2 theta sin theta)) [phi]x^2`; its Taylor series
+/// (coefficient 1/12 + theta^2/720) below theta = 1e-4.
+pub fn so3_right_jacobian_inv(phi: &Vector3<f64>) -> Matrix3<f64> {
+    let theta2 = phi.norm_squared();
+    let k = skew(phi);
+    let coeff = if theta2 < 1e-8 {
+        1.0 / 12.0 + theta2 / 720.0
+    } else {
+        let theta = theta2.sqrt();
+        1.0 / theta2 - (1.0 + theta.cos()) / (2.0 * theta * theta.sin())
+    };
+    Matrix3::identity() + 0.5 * k + coeff * k * k
+}

@@ -2,11 +2,14 @@
 //! structural errors every file format relies on.
 
 use clamber::math::Pose;
-use clamber::model::{ItemKind, JointSpec, JointType, LinkSpec, Limits, ModelError, RobotSpec};
+use clamber::model::{ItemKind, JointSpec, JointType, Limits, LinkSpec, ModelError, RobotSpec};
 use nalgebra::Vector3;
 
 fn link(name: &str) -> LinkSpec {
-    LinkSpec { name: name.into(), shapes: vec![] }
+    LinkSpec {
+        name: name.into(),
+        shapes: vec![],
+    }
 }
 
 fn joint(name: &str, t: JointType, parent: &str, child: &str) -> JointSpec {
@@ -26,7 +29,10 @@ fn joint(name: &str, t: JointType, parent: &str, child: &str) -> JointSpec {
 fn tree() -> RobotSpec {
     RobotSpec {
         name: "tree".into(),
-        links: ["left2", "world", "torso", "right1", "left1"].into_iter().map(link).collect(),
+        links: ["left2", "world", "torso", "right1", "left1"]
+            .into_iter()
+            .map(link)
+            .collect(),
         joints: vec![
             joint("l2", JointType::Prismatic, "left1", "left2"),
             joint("r1", JointType::Revolute, "torso", "right1"),
@@ -76,10 +82,14 @@ fn structural_errors_name_the_item_at_fault() {
     let e = err(s);
     assert!(matches!(e, ModelError::UnknownLink { .. }), "{e}");
     let at = e.locator().unwrap();
-    assert_eq!((at.kind, at.index, at.field), (ItemKind::Joint, 0, "parent"));
+    assert_eq!(
+        (at.kind, at.index, at.field),
+        (ItemKind::Joint, 0, "parent")
+    );
 
     let mut s = tree();
-    s.joints.push(joint("again", JointType::Fixed, "world", "left2"));
+    s.joints
+        .push(joint("again", JointType::Fixed, "world", "left2"));
     assert!(matches!(err(s), ModelError::TwoParents { .. }));
 
     // left1 -> left2 -> left1 closes a loop (and torso has no path to them).
@@ -96,7 +106,10 @@ fn structural_errors_name_the_item_at_fault() {
     let mut s = tree();
     s.links.push(link("torso"));
     let e = err(s);
-    assert!(matches!(e, ModelError::DuplicateName { what: "link", .. }), "{e}");
+    assert!(
+        matches!(e, ModelError::DuplicateName { what: "link", .. }),
+        "{e}"
+    );
     assert_eq!(e.locator().unwrap().index, 5);
 
     let mut s = tree();
@@ -104,19 +117,45 @@ fn structural_errors_name_the_item_at_fault() {
     assert!(matches!(err(s), ModelError::ZeroAxis { .. }));
 
     let mut s = tree();
-    s.joints[1].limits = vec![Limits { lower: 1.0, upper: -1.0, velocity: 1.0, acceleration: 1.0 }];
+    s.joints[1].limits = vec![Limits {
+        lower: 1.0,
+        upper: -1.0,
+        velocity: 1.0,
+        acceleration: 1.0,
+    }];
     assert!(matches!(err(s), ModelError::LimitsReversed { .. }));
 
     let mut s = tree();
-    s.joints[1].limits = vec![Limits { lower: f64::NAN, upper: 1.0, velocity: 1.0, acceleration: 1.0 }];
+    s.joints[1].limits = vec![Limits {
+        lower: f64::NAN,
+        upper: 1.0,
+        velocity: 1.0,
+        acceleration: 1.0,
+    }];
     assert!(matches!(err(s), ModelError::NotFinite { .. }));
 
     let mut s = tree();
     s.joints[2].origin.translation.vector.x = f64::INFINITY;
     let e = err(s);
-    assert!(matches!(e, ModelError::NotFinite { field: "origin", .. }), "{e}");
+    assert!(
+        matches!(
+            e,
+            ModelError::NotFinite {
+                field: "origin",
+                ..
+            }
+        ),
+        "{e}"
+    );
 
     let mut s = tree();
     s.joints[2].limits = vec![Limits::UNBOUNDED];
-    assert!(matches!(err(s), ModelError::LimitCount { got: 1, expected: 6, .. }));
+    assert!(matches!(
+        err(s),
+        ModelError::LimitCount {
+            got: 1,
+            expected: 6,
+            ..
+        }
+    ));
 }

@@ -27,7 +27,12 @@ pub struct Locator {
 
 impl Locator {
     pub fn new(kind: ItemKind, index: usize, field: &'static str) -> Self {
-        Locator { kind, index, sub_index: 0, field }
+        Locator {
+            kind,
+            index,
+            sub_index: 0,
+            field,
+        }
     }
 }
 
@@ -38,31 +43,87 @@ pub enum ModelError {
     #[error("the robot has no links")]
     NoLinks,
     #[error("duplicate {what} name `{name}` (first used by item {first})")]
-    DuplicateName { what: &'static str, name: String, first: usize, at: Locator },
+    DuplicateName {
+        what: &'static str,
+        name: String,
+        first: usize,
+        at: Locator,
+    },
     #[error("joint `{joint}` names {role} link `{link}`, which does not exist")]
-    UnknownLink { joint: String, role: &'static str, link: String, at: Locator },
+    UnknownLink {
+        joint: String,
+        role: &'static str,
+        link: String,
+        at: Locator,
+    },
     #[error("link `{link}` is the child of two joints (`{first}` and `{second}`): a kinematic tree gives each link one parent")]
-    TwoParents { link: String, first: String, second: String, at: Locator },
-    #[error("joint `{joint}` closes a cycle in the kinematic tree (link `{link}` is its own ancestor)")]
-    Cycle { joint: String, link: String, at: Locator },
-    #[error("the robot has {count} root links ({names}); exactly one link may have no parent joint")]
-    ManyRoots { count: usize, names: String, at: Locator },
+    TwoParents {
+        link: String,
+        first: String,
+        second: String,
+        at: Locator,
+    },
+    #[error(
+        "joint `{joint}` closes a cycle in the kinematic tree (link `{link}` is its own ancestor)"
+    )]
+    Cycle {
+        joint: String,
+        link: String,
+        at: Locator,
+    },
+    #[error(
+        "the robot has {count} root links ({names}); exactly one link may have no parent joint"
+    )]
+    ManyRoots {
+        count: usize,
+        names: String,
+        at: Locator,
+    },
     #[error("joint `{joint}`: lower limit {lower} is above upper limit {upper}")]
-    LimitsReversed { joint: String, lower: f64, upper: f64, at: Locator },
+    LimitsReversed {
+        joint: String,
+        lower: f64,
+        upper: f64,
+        at: Locator,
+    },
     #[error("{item}: `{field}` must be a finite number, got {value}")]
-    NotFinite { item: String, field: &'static str, value: f64, at: Locator },
+    NotFinite {
+        item: String,
+        field: &'static str,
+        value: f64,
+        at: Locator,
+    },
     #[error("{item}: `{field}` must be positive, got {value}")]
-    NotPositive { item: String, field: &'static str, value: f64, at: Locator },
+    NotPositive {
+        item: String,
+        field: &'static str,
+        value: f64,
+        at: Locator,
+    },
     #[error("joint `{joint}`: axis has zero length")]
     ZeroAxis { joint: String, at: Locator },
     #[error("effector `{effector}` is on link `{link}`, which does not exist")]
-    UnknownEffectorLink { effector: String, link: String, at: Locator },
+    UnknownEffectorLink {
+        effector: String,
+        link: String,
+        at: Locator,
+    },
     #[error("ignored collision pair names link `{link}`, which does not exist")]
     UnknownPairLink { link: String, at: Locator },
     #[error("joint `{joint}` has {got} limit entries, its type takes {expected}")]
-    LimitCount { joint: String, got: usize, expected: usize, at: Locator },
+    LimitCount {
+        joint: String,
+        got: usize,
+        expected: usize,
+        at: Locator,
+    },
     #[error("link `{link}`: shape {index}: {reason}")]
-    BadShape { link: String, index: usize, reason: String, at: Locator },
+    BadShape {
+        link: String,
+        index: usize,
+        reason: String,
+        at: Locator,
+    },
 }
 
 impl ModelError {

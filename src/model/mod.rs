@@ -8,5 +8,7 @@ mod shape;
 
 pub use error::{ItemKind, Locator, ModelError};
 pub use joint::{Joint, JointId, JointKind, Limits};
-pub use robot::{Effector, EffectorSpec, JointSpec, JointType, Link, LinkId, LinkSpec, Robot, RobotSpec};
+pub use robot::{
+    Effector, EffectorSpec, JointSpec, JointType, Link, LinkId, LinkSpec, Robot, RobotSpec,
+};
 pub use shape::{Geometry, MeshSource, Shape};

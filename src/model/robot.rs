@@ -113,7 +113,11 @@ impl Robot {
     }
     /// Number of passive (mechanism) tangent coordinates.
     pub fn passive_dof(&self) -> usize {
-        self.joints.iter().filter(|j| j.passive).map(|j| j.kind.nv()).sum()
+        self.joints
+            .iter()
+            .filter(|j| j.passive)
+            .map(|j| j.kind.nv())
+            .sum()
     }
 }
 
@@ -191,12 +195,22 @@ fn check_finite(item: &str, field: &'static str, v: f64, at: Locator) -> Result<
     if v.is_finite() {
         Ok(())
     } else {
-        Err(ModelError::NotFinite { item: item.to_string(), field, value: v, at })
+        Err(ModelError::NotFinite {
+            item: item.to_string(),
+            field,
+            value: v,
+            at,
+        })
     }
 }
 
 fn check_pose(item: &str, field: &'static str, p: &Pose, at: Locator) -> Result<(), ModelError> {
-    for v in p.translation.vector.iter().chain(p.rotation.matrix().iter()) {
+    for v in p
+        .translation
+        .vector
+        .iter()
+        .chain(p.rotation.matrix().iter())
+    {
         check_finite(item, field, *v, at)?;
     }
     Ok(())
@@ -207,15 +221,30 @@ fn check_positive(item: &str, field: &'static str, v: f64, at: Locator) -> Resul
     if v > 0.0 {
         Ok(())
     } else {
-        Err(ModelError::NotPositive { item: item.to_string(), field, value: v, at })
+        Err(ModelError::NotPositive {
+            item: item.to_string(),
+            field,
+            value: v,
+            at,
+        })
     }
 }
 
 fn check_shape(link: &str, li: usize, si: usize, s: &Shape) -> Result<(), ModelError> {
-    let at = Locator { kind: ItemKind::Shape, index: li, sub_index: si, field: "origin" };
+    let at = Locator {
+        kind: ItemKind::Shape,
+        index: li,
+        sub_index: si,
+        field: "origin",
+    };
     let item = format!("link `{link}` shape {si}");
     check_pose(&item, "origin", &s.origin, at)?;
-    let at = |field| Locator { kind: ItemKind::Shape, index: li, sub_index: si, field };
+    let at = |field| Locator {
+        kind: ItemKind::Shape,
+        index: li,
+        sub_index: si,
+        field,
+    };
     match &s.geometry {
         Geometry::Sphere { radius } => check_positive(&item, "radius", *radius, at("radius")),
         Geometry::Cuboid { size } => {
@@ -233,7 +262,10 @@ fn check_shape(link: &str, li: usize, si: usize, s: &Shape) -> Result<(), ModelE
                 return Err(ModelError::BadShape {
                     link: link.to_string(),
                     index: si,
-                    reason: format!("a convex mesh needs at least 4 points, got {}", points.len()),
+                    reason: format!(
+                        "a convex mesh needs at least 4 points, got {}",
+                        points.len()
+                    ),
                     at: at("mesh"),
                 });
             }
@@ -244,7 +276,10 @@ fn check_shape(link: &str, li: usize, si: usize, s: &Shape) -> Result<(), ModelE
             }
             Ok(())
         }
-        Geometry::TriMesh { vertices, triangles } => {
+        Geometry::TriMesh {
+            vertices,
+            triangles,
+        } => {
             if triangles.is_empty() {
                 return Err(ModelError::BadShape {
                     link: link.to_string(),
@@ -258,11 +293,17 @@ fn check_shape(link: &str, li: usize, si: usize, s: &Shape) -> Result<(), ModelE
                     check_finite(&item, "mesh", *v, at("mesh"))?;
                 }
             }
-            if let Some(t) = triangles.iter().find(|t| t.iter().any(|&i| i as usize >= vertices.len())) {
+            if let Some(t) = triangles
+                .iter()
+                .find(|t| t.iter().any(|&i| i as usize >= vertices.len()))
+            {
                 return Err(ModelError::BadShape {
                     link: link.to_string(),
                     index: si,
-                    reason: format!("triangle {t:?} indexes past the {} vertices", vertices.len()),
+                    reason: format!(
+                        "triangle {t:?} indexes past the {} vertices",
+                        vertices.len()
+                    ),
                     at: at("mesh"),
                 });
             }
@@ -275,10 +316,20 @@ fn check_limits(joint: &str, ji: usize, l: &Limits) -> Result<(), ModelError> {
     let at = |field| Locator::new(ItemKind::Joint, ji, field);
     let item = format!("joint `{joint}`");
     if l.lower.is_nan() {
-        return Err(ModelError::NotFinite { item, field: "lower", value: l.lower, at: at("lower") });
+        return Err(ModelError::NotFinite {
+            item,
+            field: "lower",
+            value: l.lower,
+            at: at("lower"),
+        });
     }
     if l.upper.is_nan() {
-        return Err(ModelError::NotFinite { item, field: "upper", value: l.upper, at: at("upper") });
+        return Err(ModelError::NotFinite {
+            item,
+            field: "upper",
+            value: l.upper,
+            at: at("upper"),
+        });
     }
     if l.lower > l.upper {
         return Err(ModelError::LimitsReversed {
@@ -290,7 +341,12 @@ fn check_limits(joint: &str, ji: usize, l: &Limits) -> Result<(), ModelError> {
     }
     for (field, v) in [("velocity", l.velocity), ("acceleration", l.acceleration)] {
         if v.is_nan() || v <= 0.0 {
-            return Err(ModelError::NotPositive { item, field, value: v, at: at(field) });
+            return Err(ModelError::NotPositive {
+                item,
+                field,
+                value: v,
+                at: at(field),
+            });
         }
     }
     Ok(())
@@ -323,9 +379,21 @@ impl RobotSpec {
         if self.links.is_empty() {
             return Err(ModelError::NoLinks);
         }
-        let link_ix = unique_names("link", ItemKind::Link, self.links.iter().map(|l| l.name.as_str()))?;
-        unique_names("joint", ItemKind::Joint, self.joints.iter().map(|j| j.name.as_str()))?;
-        unique_names("effector", ItemKind::Effector, self.effectors.iter().map(|e| e.name.as_str()))?;
+        let link_ix = unique_names(
+            "link",
+            ItemKind::Link,
+            self.links.iter().map(|l| l.name.as_str()),
+        )?;
+        unique_names(
+            "joint",
+            ItemKind::Joint,
+            self.joints.iter().map(|j| j.name.as_str()),
+        )?;
+        unique_names(
+            "effector",
+            ItemKind::Effector,
+            self.effectors.iter().map(|e| e.name.as_str()),
+        )?;
 
         // Resolve joint ends; every link has at most one parent joint.
         let n = self.links.len();
@@ -333,12 +401,15 @@ impl RobotSpec {
         let mut ends = Vec::with_capacity(self.joints.len());
         for (ji, j) in self.joints.iter().enumerate() {
             let find = |name: &str, role: &'static str| {
-                link_ix.get(name).copied().ok_or_else(|| ModelError::UnknownLink {
-                    joint: j.name.clone(),
-                    role,
-                    link: name.to_string(),
-                    at: Locator::new(ItemKind::Joint, ji, role),
-                })
+                link_ix
+                    .get(name)
+                    .copied()
+                    .ok_or_else(|| ModelError::UnknownLink {
+                        joint: j.name.clone(),
+                        role,
+                        link: name.to_string(),
+                        at: Locator::new(ItemKind::Joint, ji, role),
+                    })
             };
             let p = find(&j.parent, "parent")?;
             let c = find(&j.child, "child")?;
@@ -380,7 +451,10 @@ impl RobotSpec {
         }
         let roots: Vec<usize> = (0..n).filter(|&l| parent_of[l].is_none()).collect();
         if roots.len() != 1 {
-            let names = roots.iter().map(|&l| format!("`{}`", self.links[l].name)).collect::<Vec<_>>();
+            let names = roots
+                .iter()
+                .map(|&l| format!("`{}`", self.links[l].name))
+                .collect::<Vec<_>>();
             return Err(ModelError::ManyRoots {
                 count: roots.len(),
                 names: names.join(", "),
@@ -391,7 +465,12 @@ impl RobotSpec {
         // Per-item checks.
         for (ji, j) in self.joints.iter().enumerate() {
             let item = format!("joint `{}`", j.name);
-            check_pose(&item, "origin", &j.origin, Locator::new(ItemKind::Joint, ji, "origin"))?;
+            check_pose(
+                &item,
+                "origin",
+                &j.origin,
+                Locator::new(ItemKind::Joint, ji, "origin"),
+            )?;
             let nv = match j.joint_type {
                 JointType::Revolute | JointType::Prismatic => 1,
                 JointType::Fixed => 0,
@@ -452,12 +531,20 @@ impl RobotSpec {
         for &ji in &joint_order {
             let j = &self.joints[ji];
             let kind = match j.joint_type {
-                JointType::Revolute => JointKind::Revolute { axis: Unit::new_normalize(j.axis) },
-                JointType::Prismatic => JointKind::Prismatic { axis: Unit::new_normalize(j.axis) },
+                JointType::Revolute => JointKind::Revolute {
+                    axis: Unit::new_normalize(j.axis),
+                },
+                JointType::Prismatic => JointKind::Prismatic {
+                    axis: Unit::new_normalize(j.axis),
+                },
                 JointType::Fixed => JointKind::Fixed,
                 JointType::Floating => JointKind::Floating,
             };
-            let limits = if j.limits.is_empty() { vec![Limits::UNBOUNDED; kind.nv()] } else { j.limits.clone() };
+            let limits = if j.limits.is_empty() {
+                vec![Limits::UNBOUNDED; kind.nv()]
+            } else {
+                j.limits.clone()
+            };
             let (nq, nv) = (kind.nq(), kind.nv());
             joints.push(Joint {
                 name: j.name.clone(),
@@ -486,22 +573,36 @@ impl RobotSpec {
 
         let mut effectors = Vec::with_capacity(self.effectors.len());
         for (ei, e) in self.effectors.iter().enumerate() {
-            let link = link_ix.get(e.link.as_str()).copied().ok_or_else(|| ModelError::UnknownEffectorLink {
-                effector: e.name.clone(),
-                link: e.link.clone(),
-                at: Locator::new(ItemKind::Effector, ei, "link"),
+            let link = link_ix.get(e.link.as_str()).copied().ok_or_else(|| {
+                ModelError::UnknownEffectorLink {
+                    effector: e.name.clone(),
+                    link: e.link.clone(),
+                    at: Locator::new(ItemKind::Effector, ei, "link"),
+                }
             })?;
-            check_pose(&format!("effector `{}`", e.name), "grip", &e.grip, Locator::new(ItemKind::Effector, ei, "grip"))?;
-            effectors.push(Effector { name: e.name.clone(), link: new_index[link], grip: e.grip });
+            check_pose(
+                &format!("effector `{}`", e.name),
+                "grip",
+                &e.grip,
+                Locator::new(ItemKind::Effector, ei, "grip"),
+            )?;
+            effectors.push(Effector {
+                name: e.name.clone(),
+                link: new_index[link],
+                grip: e.grip,
+            });
         }
 
         let mut ignored = Vec::new();
         for (pi, (a, b)) in self.ignored_pairs.iter().enumerate() {
             let find = |name: &String, field| {
-                link_ix.get(name.as_str()).copied().ok_or_else(|| ModelError::UnknownPairLink {
-                    link: name.clone(),
-                    at: Locator::new(ItemKind::IgnoredPair, pi, field),
-                })
+                link_ix
+                    .get(name.as_str())
+                    .copied()
+                    .ok_or_else(|| ModelError::UnknownPairLink {
+                        link: name.clone(),
+                        at: Locator::new(ItemKind::IgnoredPair, pi, field),
+                    })
             };
             let (a, b) = (new_index[find(a, "first")?], new_index[find(b, "second")?]);
             ignored.push((a.min(b), a.max(b)));

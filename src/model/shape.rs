@@ -13,14 +13,26 @@ use crate::math::Pose;
 #[derive(Clone, Debug, PartialEq)]
 #[non_exhaustive]
 pub enum Geometry {
-    Sphere { radius: f64 },
+    Sphere {
+        radius: f64,
+    },
     /// Full edge lengths (not half extents), as in URDF.
-    Cuboid { size: Vector3<f64> },
+    Cuboid {
+        size: Vector3<f64>,
+    },
     /// `length` is the distance between the centres of the two end caps.
-    Capsule { radius: f64, length: f64 },
-    Cylinder { radius: f64, length: f64 },
+    Capsule {
+        radius: f64,
+        length: f64,
+    },
+    Cylinder {
+        radius: f64,
+        length: f64,
+    },
     /// Convex hull of these points.
-    ConvexMesh { points: Arc<Vec<Point3<f64>>> },
+    ConvexMesh {
+        points: Arc<Vec<Point3<f64>>>,
+    },
     /// A triangle surface (not necessarily closed).
     TriMesh {
         vertices: Arc<Vec<Point3<f64>>>,
@@ -46,7 +58,9 @@ impl Geometry {
             Geometry::Sphere { radius } => *radius,
             Geometry::Cuboid { size } => 0.5 * size.norm(),
             Geometry::Capsule { radius, length } => radius + 0.5 * length,
-            Geometry::Cylinder { radius, length } => (radius * radius + 0.25 * length * length).sqrt(),
+            Geometry::Cylinder { radius, length } => {
+                (radius * radius + 0.25 * length * length).sqrt()
+            }
             Geometry::ConvexMesh { points } => max_norm(points),
             Geometry::TriMesh { vertices, .. } => max_norm(vertices),
         }

@@ -19,18 +19,39 @@ pub mod urdf;
 #[non_exhaustive]
 pub enum RobotFileError {
     #[error("{path}: cannot read the file: {source}")]
-    Io { path: PathBuf, source: std::io::Error },
+    Io {
+        path: PathBuf,
+        source: std::io::Error,
+    },
     #[error("{path}: unknown robot file type; expected a `.toml` or `.urdf` file")]
     UnknownFormat { path: PathBuf },
     /// Malformed TOML or XML, or a value of the wrong type or form.
     #[error("{path}:{line}:{column}: {message}")]
-    Syntax { path: PathBuf, line: usize, column: usize, message: String },
+    Syntax {
+        path: PathBuf,
+        line: usize,
+        column: usize,
+        message: String,
+    },
     /// Well-formed file whose content cannot make a robot.
     #[error("{path}:{line}:{column}: `{field}`: {source}")]
-    Model { path: PathBuf, line: usize, column: usize, field: String, source: ModelError },
+    Model {
+        path: PathBuf,
+        line: usize,
+        column: usize,
+        field: String,
+        source: ModelError,
+    },
     /// A mesh file referenced by the robot file is missing or unreadable.
     #[error("{path}:{line}:{column}: `{field}`: mesh `{mesh}`: {message}")]
-    Mesh { path: PathBuf, line: usize, column: usize, field: String, mesh: PathBuf, message: String },
+    Mesh {
+        path: PathBuf,
+        line: usize,
+        column: usize,
+        field: String,
+        mesh: PathBuf,
+        message: String,
+    },
 }
 
 impl RobotFileError {
@@ -47,20 +68,40 @@ impl RobotFileError {
 
 /// Read a robot description from a `.toml` or `.urdf` file without building it.
 pub fn load_robot_spec(path: &Path) -> Result<RobotSpec, RobotFileError> {
-    let text = std::fs::read_to_string(path).map_err(|source| RobotFileError::Io { path: path.to_path_buf(), source })?;
-    match path.extension().and_then(|e| e.to_str()).map(|e| e.to_ascii_lowercase()).as_deref() {
+    let text = std::fs::read_to_string(path).map_err(|source| RobotFileError::Io {
+        path: path.to_path_buf(),
+        source,
+    })?;
+    match path
+        .extension()
+        .and_then(|e| e.to_str())
+        .map(|e| e.to_ascii_lowercase())
+        .as_deref()
+    {
         Some("toml") => toml_format::parse(&text, path).map(|(spec, _)| spec),
         Some("urdf") | Some("xml") => urdf::parse(&text, path).map(|(spec, _)| spec),
-        _ => Err(RobotFileError::UnknownFormat { path: path.to_path_buf() }),
+        _ => Err(RobotFileError::UnknownFormat {
+            path: path.to_path_buf(),
+        }),
     }
 }
 
 /// Load and build a robot from a `.toml` or `.urdf` file.
 pub fn load_robot(path: &Path) -> Result<Robot, RobotFileError> {
-    let text = std::fs::read_to_string(path).map_err(|source| RobotFileError::Io { path: path.to_path_buf(), source })?;
-    match path.extension().and_then(|e| e.to_str()).map(|e| e.to_ascii_lowercase()).as_deref() {
+    let text = std::fs::read_to_string(path).map_err(|source| RobotFileError::Io {
+        path: path.to_path_buf(),
+        source,
+    })?;
+    match path
+        .extension()
+        .and_then(|e| e.to_str())
+        .map(|e| e.to_ascii_lowercase())
+        .as_deref()
+    {
         Some("toml") => toml_format::load_str(&text, path),
         Some("urdf") | Some("xml") => urdf::load_str(&text, path),
-        _ => Err(RobotFileError::UnknownFormat { path: path.to_path_buf() }),
+        _ => Err(RobotFileError::UnknownFormat {
+            path: path.to_path_buf(),
+        }),
     }
 }
