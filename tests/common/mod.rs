@@ -98,3 +98,98 @@ pub fn arm7() -> Robot {
 pub fn identity() -> Pose {
     Pose::identity()
 }
+
+/// A floating torso carrying two three-joint arms with effectors `left` and `right`, and a
+/// passive hinge ("door") on the world: every joint type and a branching tree.
+pub fn twin() -> Robot {
+    let mut links = vec![
+        LinkSpec {
+            name: "world".into(),
+            shapes: vec![],
+        },
+        LinkSpec {
+            name: "torso".into(),
+            shapes: vec![],
+        },
+    ];
+    let mut joints = vec![JointSpec {
+        name: "float".into(),
+        joint_type: JointType::Floating,
+        parent: "world".into(),
+        child: "torso".into(),
+        origin: Pose::identity(),
+        axis: Vector3::z(),
+        limits: vec![],
+        passive: false,
+    }];
+    for (side, y) in [("left", 0.2), ("right", -0.2)] {
+        let names = [format!("{side}1"), format!("{side}2"), format!("{side}3")];
+        let axes = [[0.3, 0.2, 0.9], [0., 1., 0.], [1., 0., 0.]];
+        let offs = [[0.0, y, 0.1], [0.0, 0.0, 0.3], [0.05, 0.0, 0.25]];
+        let mut parent = "torso".to_string();
+        for i in 0..3 {
+            links.push(LinkSpec {
+                name: names[i].clone(),
+                shapes: vec![],
+            });
+            joints.push(joint(
+                &format!("{side}_j{i}"),
+                JointType::Revolute,
+                &parent,
+                &names[i],
+                offs[i],
+                axes[i],
+                Some((-3.0, 3.0)),
+            ));
+            parent = names[i].clone();
+        }
+        links.push(LinkSpec {
+            name: format!("{side}_slide"),
+            shapes: vec![],
+        });
+        joints.push(joint(
+            &format!("{side}_p"),
+            JointType::Prismatic,
+            &parent,
+            &format!("{side}_slide"),
+            [0.0, 0.0, 0.1],
+            [0.0, 0.0, 1.0],
+            Some((-0.1, 0.1)),
+        ));
+    }
+    links.push(LinkSpec {
+        name: "door".into(),
+        shapes: vec![],
+    });
+    let mut hinge = joint(
+        "hinge",
+        JointType::Revolute,
+        "world",
+        "door",
+        [1.0, 0.5, 0.0],
+        [0.0, 0.0, 1.0],
+        Some((-0.1, 2.0)),
+    );
+    hinge.passive = true;
+    joints.push(hinge);
+    RobotSpec {
+        name: "twin".into(),
+        links,
+        joints,
+        effectors: vec![
+            EffectorSpec {
+                name: "left".into(),
+                link: "left_slide".into(),
+                grip: pose_from_xyz_rpy([0.0, 0.02, 0.08], [0.1, 0.2, 0.3]),
+            },
+            EffectorSpec {
+                name: "right".into(),
+                link: "right_slide".into(),
+                grip: pose_from_xyz_rpy([0.0, -0.02, 0.08], [-0.3, 0.1, 0.0]),
+            },
+        ],
+        ..Default::default()
+    }
+    .build()
+    .unwrap()
+}
