@@ -16,6 +16,7 @@ pub mod model;
 pub mod projection;
 pub mod report;
 pub mod robot_file;
+pub mod sampling;
 pub mod walk;
 
 pub use math::Pose;

@@ -3,6 +3,7 @@
 
 mod error;
 mod joint;
+mod mechanism;
 mod robot;
 mod shape;
 
