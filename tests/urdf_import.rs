@@ -263,6 +263,7 @@ const GOOD: &str = r#"<?xml version="1.0"?>
 </robot>
 "#;
 
+#[allow(clippy::result_large_err)] // the shared error type; see src/robot_file/urdf.rs
 fn load(text: &str) -> Result<clamber::Robot, RobotFileError> {
     urdf::load_str(text, &data("urdf/in_memory.urdf"))
 }

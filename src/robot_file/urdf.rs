@@ -37,6 +37,10 @@
 //! # Writing
 //! See [`write_urdf_with`].
 
+// `RobotFileError` (shared with the TOML reader) is large because it carries a
+// `ModelError`; boxing belongs in that shared type, not here.
+#![allow(clippy::result_large_err)]
+
 use std::collections::HashSet;
 use std::fmt::Write as _;
 use std::path::{Path, PathBuf};
@@ -162,8 +166,6 @@ impl SourceMap {
 
 /// What the checking pass learns about a joint that `urdf-rs` does not tell.
 struct JointExtra {
-    /// `continuous` (read as an unbounded revolute joint).
-    continuous: bool,
     has_limit: bool,
     /// The `acceleration` attribute of `<limit>`, read in every URDF version.
     acceleration: Option<f64>,
@@ -436,7 +438,6 @@ impl<'input> Checker<'_, 'input> {
             None => {}
         }
         let extra = JointExtra {
-            continuous: ty == "continuous",
             has_limit: limit.is_some(),
             acceleration,
         };
@@ -560,7 +561,10 @@ fn shape_of(c: &urdf_rs::Collision, pos: &ShapePos, path: &Path) -> Result<Shape
                 };
                 mesh_error(path, pos.geometry, file.clone(), message)
             })?;
-            let abs = std::path::absolute(&file).unwrap_or(file);
+            // The file was just read, so it exists and has a canonical path.
+            let abs = std::fs::canonicalize(&file)
+                .or_else(|_| std::path::absolute(&file))
+                .unwrap_or(file);
             (geometry, Some(MeshSource { path: abs, scale }))
         }
     };
@@ -677,7 +681,6 @@ pub fn parse(text: &str, path: &Path) -> Result<(RobotSpec, SourceMap), RobotFil
                 (t, vec![lim])
             }
             urdf_rs::JointType::Continuous => {
-                debug_assert!(extra.continuous);
                 let velocity = if extra.has_limit {
                     unbounded_if_max(l.velocity)
                 } else {
@@ -863,16 +866,22 @@ fn write_link(out: &mut String, link: &crate::model::Link) {
             );
         };
         match &s.geometry {
-            Geometry::Sphere { radius } => {
-                collision(out, &s.origin, &format!("<sphere radius=\"{radius:?}\"/>"))
-            }
+            Geometry::Sphere { radius } => collision(
+                out,
+                &s.origin,
+                &format!("<sphere radius=\"{}\"/>", num(*radius)),
+            ),
             Geometry::Cuboid { size } => {
                 collision(out, &s.origin, &format!("<box size=\"{}\"/>", vec3(size)))
             }
             Geometry::Cylinder { radius, length } => collision(
                 out,
                 &s.origin,
-                &format!("<cylinder radius=\"{radius:?}\" length=\"{length:?}\"/>"),
+                &format!(
+                    "<cylinder radius=\"{}\" length=\"{}\"/>",
+                    num(*radius),
+                    num(*length)
+                ),
             ),
             Geometry::Capsule { radius, length } => {
                 let _ = writeln!(
@@ -882,11 +891,15 @@ fn write_link(out: &mut String, link: &crate::model::Link) {
                 collision(
                     out,
                     &s.origin,
-                    &format!("<cylinder radius=\"{radius:?}\" length=\"{length:?}\"/>"),
+                    &format!(
+                        "<cylinder radius=\"{}\" length=\"{}\"/>",
+                        num(*radius),
+                        num(*length)
+                    ),
                 );
                 for sign in [1.0, -1.0] {
                     let cap = s.origin * Translation3::new(0.0, 0.0, sign * 0.5 * length);
-                    collision(out, &cap, &format!("<sphere radius=\"{radius:?}\"/>"));
+                    collision(out, &cap, &format!("<sphere radius=\"{}\"/>", num(*radius)));
                 }
             }
             Geometry::ConvexMesh { .. } | Geometry::TriMesh { .. } => match &s.source {
@@ -950,7 +963,7 @@ fn write_joint(out: &mut String, j: &crate::model::Joint, parent: &str, child: &
             }
             let _ = write!(attrs, "effort=\"0\" velocity=\"{}\"", bound(l.velocity));
             if l.acceleration.is_finite() {
-                let _ = write!(attrs, " acceleration=\"{:?}\"", l.acceleration);
+                let _ = write!(attrs, " acceleration=\"{}\"", num(l.acceleration));
             }
             if ty != "continuous" || l.velocity.is_finite() || l.acceleration.is_finite() {
                 let _ = writeln!(out, "    <limit {attrs}/>");
@@ -978,19 +991,21 @@ fn write_joint(out: &mut String, j: &crate::model::Joint, parent: &str, child: &
 }
 
 fn origin_element(p: &Pose) -> String {
-    let t = p.translation.vector;
-    let rpy = rpy_of(&p.rotation);
+    let rpy = Vector3::from(rpy_of(&p.rotation));
     format!(
-        "<origin xyz=\"{}\" rpy=\"{:?} {:?} {:?}\"/>",
-        vec3(&t),
-        rpy[0],
-        rpy[1],
-        rpy[2]
+        "<origin xyz=\"{}\" rpy=\"{}\"/>",
+        vec3(&p.translation.vector),
+        vec3(&rpy)
     )
 }
 
+/// Shortest text that reads back to the same value; `-0.0` is written `0.0`.
+fn num(v: f64) -> String {
+    format!("{:?}", v + 0.0)
+}
+
 fn vec3(v: &Vector3<f64>) -> String {
-    format!("{:?} {:?} {:?}", v.x, v.y, v.z)
+    format!("{} {} {}", num(v.x), num(v.y), num(v.z))
 }
 
 /// A limit value; infinite ones as `+-f64::MAX`, which URDF readers can parse.
@@ -998,7 +1013,7 @@ fn bound(v: f64) -> String {
     if v.is_infinite() {
         format!("{:?}", v.signum() * f64::MAX)
     } else {
-        format!("{v:?}")
+        num(v)
     }
 }
 
