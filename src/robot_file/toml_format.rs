@@ -526,7 +526,7 @@ impl SourceMap {
         let key = if at.kind == ItemKind::IgnoredPair {
             "ignore"
         } else {
-            keys[0]
+            keys.first().copied().unwrap_or(at.field)
         };
         entry.table.map(|p| (p, key))
     }
@@ -769,11 +769,13 @@ impl<'a> Reader<'a> {
             return Err(self.wrong_type("ignore", expected, v));
         };
         for pair in pairs {
-            let names = match pair.get_ref() {
-                Raw::Array(names) if names.len() == 2 => names,
+            let (a, b) = match pair.get_ref() {
+                Raw::Array(names) => match names.as_slice() {
+                    [a, b] => (a, b),
+                    _ => return Err(self.wrong_type("ignore", expected, pair)),
+                },
                 _ => return Err(self.wrong_type("ignore", expected, pair)),
             };
-            let (a, b) = (&names[0], &names[1]);
             let (na, nb) = (self.string(a, "ignore")?, self.string(b, "ignore")?);
             self.map.pairs.push(Entry {
                 table: Some(self.pos(&pair.span())),
