@@ -454,3 +454,23 @@ fn floating_and_passive_robot_loads() {
     // ignore_adjacent = false and no extra pairs.
     assert!(r.ignored_pairs().is_empty());
 }
+
+/// The complete example in `docs/robot-format.md` is a valid robot file.
+#[test]
+fn documented_example_loads() {
+    let doc_path = Path::new(env!("CARGO_MANIFEST_DIR")).join("docs/robot-format.md");
+    let doc = std::fs::read_to_string(&doc_path).expect("docs/robot-format.md");
+    let start = doc.find("## Complete example").expect("example section");
+    let block = doc[start..]
+        .split("```toml\n")
+        .nth(1)
+        .and_then(|b| b.split("```").next())
+        .expect("toml block");
+    let r = clamber::robot_file::toml_format::load_str(block, &doc_path)
+        .expect("documented example loads");
+    assert_eq!(r.name(), "pointer");
+    assert_eq!(
+        (r.nq(), r.nv(), r.links().len(), r.effectors().len()),
+        (3, 3, 4, 1)
+    );
+}
