@@ -474,3 +474,44 @@ fn documented_example_loads() {
         (3, 3, 4, 1)
     );
 }
+
+#[test]
+fn duplicate_key_is_named() {
+    let e = load_bad("duplicate_key.toml");
+    assert!(
+        syntax_message(&e).starts_with("duplicate key `radius`"),
+        "{e}"
+    );
+    assert_at(&e, 10, 1, "radius");
+}
+
+mod no_panic {
+    use super::*;
+    use proptest::prelude::*;
+
+    proptest! {
+        #![proptest_config(ProptestConfig { cases: 400, ..ProptestConfig::default() })]
+        /// Random edits of a good file (a character replaced by TOML punctuation, a digit,
+        /// a letter, `nan` or `inf`, or the text cut short) load or fail, never panic.
+        #[test]
+        fn edited_files_never_panic(pos in 0usize..2000, pick in 0usize..14, cut in proptest::bool::ANY) {
+            let path = data("toml/three_link.toml");
+            let good = std::fs::read_to_string(&path).expect("fixture");
+            let chars: Vec<char> = good.chars().collect();
+            let at = pos % chars.len();
+            let repl = ["[", "]", "\"", "=", ",", ".", "\n", "0", "-", "x", "nan", "inf", "{", "#"][pick];
+            let text: String = if cut {
+                chars[..at].iter().collect()
+            } else {
+                chars[..at].iter().collect::<String>() + repl + &chars[at + 1..].iter().collect::<String>()
+            };
+            let result = std::panic::catch_unwind(|| {
+                clamber::robot_file::toml_format::load_str(&text, &path).map(|_| ()).map_err(|e| e.position())
+            });
+            prop_assert!(result.is_ok(), "panic on edited text:\n{text}");
+            if let Ok(Err(position)) = result {
+                prop_assert!(position.is_some());
+            }
+        }
+    }
+}

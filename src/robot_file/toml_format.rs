@@ -453,6 +453,26 @@ fn rewrite_serde_message(message: &str) -> String {
     message.to_string()
 }
 
+/// The parser says only "duplicate key"; add the key, read from the text at the span.
+fn name_duplicate_key(message: String, text: &str, span: Option<Span>) -> String {
+    if message != "duplicate key" {
+        return message;
+    }
+    let key: String = span
+        .and_then(|s| text.get(s.start..))
+        .map(|rest| {
+            rest.chars()
+                .take_while(|c| c.is_ascii_alphanumeric() || *c == '_' || *c == '-')
+                .collect()
+        })
+        .unwrap_or_default();
+    if key.is_empty() {
+        message
+    } else {
+        format!("duplicate key `{key}` (each key may be given once per table)")
+    }
+}
+
 // ---------------------------------------------------------------------------------------
 // Source map
 
@@ -1134,7 +1154,11 @@ pub fn parse(text: &str, path: &Path) -> Result<(RobotSpec, SourceMap), RobotFil
             path: path.to_path_buf(),
             line,
             column,
-            message: rewrite_serde_message(e.message().trim_end()),
+            message: name_duplicate_key(
+                rewrite_serde_message(e.message().trim_end()),
+                text,
+                e.span(),
+            ),
         }
     })?;
     let mut r = Reader {
