@@ -96,9 +96,10 @@ pub struct ShapeRow {
 }
 
 /// Sampled reach of one effector: the largest distance, over [`REACH_SAMPLES`] random
-/// configurations, from the grip frame origin to the origin of `from_link`, the first
-/// link on the way from the root to the effector whose joint moves (the root if none
-/// does). A lower bound on the true maximum.
+/// configurations, from the grip frame origin to the origin of `from_link`: the link
+/// carried by the last prismatic or floating joint on the way from the root to the effector
+/// (the robot's base, for a mobile or free-flying robot), or else the first link whose joint
+/// moves (the root if none does). A lower bound on the true maximum.
 #[derive(Clone, Debug, Serialize)]
 pub struct ReachRow {
     pub effector: String,
@@ -202,8 +203,9 @@ fn joint_row(robot: &Robot, j: &crate::model::Joint) -> JointRow {
     }
 }
 
-/// The link reach is measured from for an effector on `link`: the child of the first
-/// moving joint on the path from the root, or the root.
+/// The link reach is measured from for an effector on `link`: the child of the last
+/// prismatic or floating joint on the path from the root (base motion does not count as
+/// reach), else the child of the first moving joint, else the root.
 fn reach_origin(robot: &Robot, link: LinkId) -> LinkId {
     let mut path = Vec::new(); // joints from `link` up to the root
     let mut l = link;
@@ -214,9 +216,15 @@ fn reach_origin(robot: &Robot, link: LinkId) -> LinkId {
             None => break,
         }
     }
-    path.iter()
+    let joints = || path.iter().filter_map(|&j| robot.joints().get(j));
+    // `path` runs from the effector up, so the first base joint found is the last one.
+    if let Some(base) =
+        joints().find(|j| matches!(j.kind, JointKind::Prismatic { .. } | JointKind::Floating))
+    {
+        return base.child;
+    }
+    joints()
         .rev()
-        .filter_map(|&j| robot.joints().get(j))
         .find(|j| j.kind.nv() > 0)
         .map_or(0, |j| j.child)
 }

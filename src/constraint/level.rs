@@ -121,8 +121,8 @@ impl Constraint for KeepLevel {
             }
             ctx.frame_jacobian(&self.frame)?;
             let w = ctx.scratch.rows(3, 3);
-            for r in 0..self.rows() {
-                jac.row_mut(r).copy_from(&(grad[r].transpose() * w));
+            for (r, g) in grad.iter().take(self.rows()).enumerate() {
+                jac.row_mut(r).copy_from(&(g.transpose() * w));
             }
         }
         Ok(())

@@ -40,7 +40,7 @@ pub enum RobotFileError {
         line: usize,
         column: usize,
         field: String,
-        source: ModelError,
+        source: Box<ModelError>,
     },
     /// A mesh file referenced by the robot file is missing or unreadable.
     #[error("{path}:{line}:{column}: `{field}`: mesh `{mesh}`: {message}")]
@@ -55,6 +55,14 @@ pub enum RobotFileError {
 }
 
 impl RobotFileError {
+    /// The model error behind a `Model` error.
+    pub fn model_error(&self) -> Option<&ModelError> {
+        match self {
+            RobotFileError::Model { source, .. } => Some(source),
+            _ => None,
+        }
+    }
+
     /// (line, column) of the fault in the robot file, when there is one.
     pub fn position(&self) -> Option<(usize, usize)> {
         match self {

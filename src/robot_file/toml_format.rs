@@ -8,10 +8,6 @@
 //! [`RobotSpec`] together with a [`SourceMap`] that maps the model builder's errors
 //! ([`ModelError::locator`]) back to a line and column in the file.
 
-// `RobotFileError` (defined in `robot_file/mod.rs`) is large; it is only built on the cold
-// path of a file that fails to load, so its size costs nothing that matters here.
-#![allow(clippy::result_large_err)]
-
 use std::fmt;
 use std::marker::PhantomData;
 use std::ops::Range;
@@ -621,12 +617,12 @@ impl<'a> Reader<'a> {
             line: p.line,
             column: p.column,
             field: field.to_string(),
-            source: ModelError::NotFinite {
+            source: Box::new(ModelError::NotFinite {
                 item: item.desc.clone(),
                 field,
                 value,
                 at: item.at(field),
-            },
+            }),
         }
     }
 
@@ -1202,7 +1198,7 @@ pub fn locate_model_error(source: ModelError, map: &SourceMap, path: &Path) -> R
         line: pos.line,
         column: pos.column,
         field,
-        source,
+        source: Box::new(source),
     }
 }
 

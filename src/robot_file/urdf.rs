@@ -37,10 +37,6 @@
 //! # Writing
 //! See [`write_urdf_with`].
 
-// `RobotFileError` (shared with the TOML reader) is large because it carries a
-// `ModelError`; boxing belongs in that shared type, not here.
-#![allow(clippy::result_large_err)]
-
 use std::collections::HashSet;
 use std::fmt::Write as _;
 use std::path::{Path, PathBuf};
@@ -728,7 +724,7 @@ pub fn load_str(text: &str, path: &Path) -> Result<Robot, RobotFileError> {
             line,
             column,
             field,
-            source,
+            source: Box::new(source),
         }
     })
 }
