@@ -96,10 +96,9 @@ pub struct ShapeRow {
 }
 
 /// Sampled reach of one effector: the largest distance, over [`REACH_SAMPLES`] random
-/// configurations, from the grip frame origin to the origin of `from_link`: the link
-/// carried by the last prismatic or floating joint on the way from the root to the effector
-/// (the robot's base, for a mobile or free-flying robot), or else the first link whose joint
-/// moves (the root if none does). A lower bound on the true maximum.
+/// configurations, from the grip frame origin to the origin of `from_link`: the robot's base
+/// for a free-flying or mobile robot, else the first link whose joint moves (see
+/// `reach_origin`). A lower bound on the true maximum.
 #[derive(Clone, Debug, Serialize)]
 pub struct ReachRow {
     pub effector: String,
@@ -203,9 +202,10 @@ fn joint_row(robot: &Robot, j: &crate::model::Joint) -> JointRow {
     }
 }
 
-/// The link reach is measured from for an effector on `link`: the child of the last
-/// prismatic or floating joint on the path from the root (base motion does not count as
-/// reach), else the child of the first moving joint, else the root.
+/// The link reach is measured from for an effector on `link` (base motion does not count as
+/// reach): the child of the first floating joint on the path from the root; else the child
+/// of the last joint in a leading run of prismatic joints (a mobile or gantry base); else the
+/// child of the first moving joint; else the root.
 fn reach_origin(robot: &Robot, link: LinkId) -> LinkId {
     let mut path = Vec::new(); // joints from `link` up to the root
     let mut l = link;
@@ -216,17 +216,23 @@ fn reach_origin(robot: &Robot, link: LinkId) -> LinkId {
             None => break,
         }
     }
-    let joints = || path.iter().filter_map(|&j| robot.joints().get(j));
-    // `path` runs from the effector up, so the first base joint found is the last one.
-    if let Some(base) =
-        joints().find(|j| matches!(j.kind, JointKind::Prismatic { .. } | JointKind::Floating))
+    // From the root down, moving joints only.
+    let down = || {
+        path.iter()
+            .rev()
+            .filter_map(|&j| robot.joints().get(j))
+            .filter(|j| j.kind.nv() > 0)
+    };
+    if let Some(float) = down().find(|j| matches!(j.kind, JointKind::Floating)) {
+        return float.child;
+    }
+    if let Some(base) = down()
+        .take_while(|j| matches!(j.kind, JointKind::Prismatic { .. }))
+        .last()
     {
         return base.child;
     }
-    joints()
-        .rev()
-        .find(|j| j.kind.nv() > 0)
-        .map_or(0, |j| j.child)
+    down().next().map_or(0, |j| j.child)
 }
 
 fn reach(robot: &Robot) -> Result<Vec<ReachRow>, KinematicsError> {
