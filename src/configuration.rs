@@ -299,6 +299,30 @@ impl Robot {
     }
 }
 
+impl Robot {
+    /// Reach margin at `q`: the smallest distance of any driven (non-passive) bounded
+    /// coordinate to its nearer position limit (radians or metres; floating rotation and
+    /// unbounded coordinates do not count). Infinite when nothing is bounded.
+    pub fn reach_margin(&self, q: &[f64]) -> f64 {
+        let mut m = f64::INFINITY;
+        if q.len() != self.nq() {
+            return f64::NAN;
+        }
+        for j in self.joints().iter().filter(|j| !j.passive) {
+            let coords = match j.kind {
+                JointKind::Floating => 3,
+                JointKind::Fixed => 0,
+                _ => 1,
+            };
+            for k in 0..coords {
+                let (x, l) = (q[j.q_index + k], &j.limits[k]);
+                m = m.min(x - l.lower).min(l.upper - x);
+            }
+        }
+        m
+    }
+}
+
 fn mid_or_zero(lo: f64, hi: f64) -> f64 {
     if lo <= 0.0 && 0.0 <= hi {
         0.0

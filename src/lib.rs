@@ -10,6 +10,7 @@
 pub mod collision;
 pub mod configuration;
 pub mod constraint;
+pub mod grip_position;
 pub mod kinematics;
 pub mod math;
 pub mod model;

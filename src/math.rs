@@ -15,11 +15,28 @@ pub fn pose_from_xyz_rpy(xyz: [f64; 3], rpy: [f64; 3]) -> Pose {
     )
 }
 
-/// Roll-pitch-yaw of a rotation (URDF convention). Only used for writing files; the
-/// model never stores Euler angles.
+/// Roll-pitch-yaw of a rotation (URDF convention), such that
+/// `pose_from_xyz_rpy(_, rpy_of(r))` gives `r` back to rounding error, also at and near
+/// pitch = +-pi/2 (gimbal lock). Only used for writing files; the model never stores
+/// Euler angles.
+///
+/// Written by hand because `Rotation3::euler_angles` takes the pitch from `asin(-r20)`,
+/// which loses about half the digits near gimbal lock. Here every angle comes from an
+/// `atan2` of well-conditioned entries: with `R = Rz(yaw) Ry(pitch) Rx(roll)`, the yaw
+/// turns the first column into the xz plane (any yaw works when that column is +-z), then
+/// `Rz(-yaw) R = Ry(pitch) Rx(roll)`, whose first column gives the pitch and whose middle
+/// row is `(0, cos roll, -sin roll)`.
 pub fn rpy_of(r: &Rotation3<f64>) -> [f64; 3] {
-    let (r, p, y) = r.euler_angles();
-    [r, p, y]
+    let m = r.matrix();
+    let yaw = m[(1, 0)].atan2(m[(0, 0)]);
+    let (sy, cy) = yaw.sin_cos();
+    // Rows of Rz(-yaw) * m that are needed: row 0 (first entry) and row 1.
+    let c0 = cy * m[(0, 0)] + sy * m[(1, 0)];
+    let pitch = (-m[(2, 0)]).atan2(c0);
+    let r11 = -sy * m[(0, 1)] + cy * m[(1, 1)];
+    let r12 = -sy * m[(0, 2)] + cy * m[(1, 2)];
+    let roll = (-r12).atan2(r11);
+    [roll, pitch, yaw]
 }
 
 /// Rotation about a unit axis by `angle` (Rodrigues' formula), written out because it is on

@@ -28,14 +28,15 @@ pub struct BarGrip {
 }
 
 impl BarGrip {
-    /// A bar grip with the bar frame's z axis chosen perpendicular to the bar and as close
-    /// as possible to `toward` (e.g. the direction the robot approaches from).
+    /// A bar grip from `start` to `end`. The bar frame's z axis (the grip frame's approach
+    /// axis) is chosen perpendicular to the bar and as close as possible to `approach`: the
+    /// direction in which the hand moves onto the bar.
     pub fn new(
         robot: &Robot,
         effector: &str,
         start: Point3<f64>,
         end: Point3<f64>,
-        toward: Vector3<f64>,
+        approach: Vector3<f64>,
         turn_free: bool,
     ) -> Result<Self, ConstraintError> {
         let d = end - start;
@@ -48,7 +49,7 @@ impl BarGrip {
             });
         }
         let x = d / length;
-        let mut z = toward - x * x.dot(&toward);
+        let mut z = approach - x * x.dot(&approach);
         if z.norm() < 1e-9 {
             z = perpendicular_basis(&x).0;
         }

@@ -105,3 +105,18 @@ pub fn load_robot(path: &Path) -> Result<Robot, RobotFileError> {
         }),
     }
 }
+
+/// 1-based (line, column) of a byte offset in `text`; the column counts characters, not
+/// bytes. Offsets past the end give the position just after the last character. Shared
+/// by the TOML and URDF readers.
+pub(crate) fn line_col(text: &str, byte_offset: usize) -> (usize, usize) {
+    let mut end = byte_offset.min(text.len());
+    while !text.is_char_boundary(end) {
+        end -= 1;
+    }
+    let before = &text[..end];
+    let line = before.matches('\n').count() + 1;
+    let line_start = before.rfind('\n').map_or(0, |i| i + 1);
+    let column = before[line_start..].chars().count() + 1;
+    (line, column)
+}
