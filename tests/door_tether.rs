@@ -1,8 +1,7 @@
 //! A door handle tethered to the mobile manipulator: a closed chain through a passive hinge.
 //!
-//! The robot is the kinematics of `robots/trundle.toml` (planar base x, y, yaw and a
-//! seven-joint arm), written in code in `tests/common` because the TOML loader has not
-//! landed on this branch yet. A door (panel on a vertical hinge, passive) is attached with
+//! The robot is `robots/trundle.toml` (planar base x, y, yaw and a seven-joint arm, effector
+//! `gripper`). A door (panel on a vertical hinge, passive) is attached with
 //! `RobotSpec::attach_mechanism`; the gripper is tethered to the handle.
 //!
 //! Outside check (elementary kinematics): a point fixed on a body turning about a fixed
@@ -68,7 +67,8 @@ fn handle() -> Pose {
 }
 
 fn robot() -> Robot {
-    let mut spec = common::trundle_like_spec();
+    let path = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("robots/trundle.toml");
+    let mut spec = clamber::robot_file::load_robot_spec(&path).unwrap();
     spec.attach_mechanism(&door());
     spec.build().unwrap()
 }
