@@ -14,12 +14,23 @@ use rand::{Rng, SeedableRng};
 
 fn main() -> anyhow::Result<()> {
     let args: Vec<String> = std::env::args().collect();
-    let path = args.get(1).map(String::as_str).unwrap_or("robots/sevenfold.toml");
+    let path = args
+        .get(1)
+        .map(String::as_str)
+        .unwrap_or("robots/sevenfold.toml");
     let effector = args.get(2).map(String::as_str).unwrap_or("hand");
-    let trials: usize = args.get(3).map(|s| s.parse()).transpose()?.unwrap_or(20_000);
+    let trials: usize = args
+        .get(3)
+        .map(|s| s.parse())
+        .transpose()?
+        .unwrap_or(20_000);
     let robot = clamber::robot_file::load_robot(std::path::Path::new(path))?;
     let settings = ProjectionSettings::default();
-    println!("robot {path} ({} DOF), effector {effector}, tolerance {:e}, {trials} trials per row", robot.nv(), settings.tolerance);
+    println!(
+        "robot {path} ({} DOF), effector {effector}, tolerance {:e}, {trials} trials per row",
+        robot.nv(),
+        settings.tolerance
+    );
     println!("| perturbation (rad, per joint) | success | mean iterations | median time (us) | p95 time (us) |");
     println!("|---|---|---|---|---|");
     for delta in [0.05, 0.2, 0.5] {
@@ -27,16 +38,31 @@ fn main() -> anyhow::Result<()> {
         let mut times = Vec::with_capacity(trials);
         let (mut ok, mut iters) = (0usize, 0usize);
         let mut poses = vec![Pose::identity(); robot.links().len()];
-        let e = robot.effector(effector).ok_or_else(|| anyhow::anyhow!("no effector {effector}"))?;
+        let e = robot
+            .effector(effector)
+            .ok_or_else(|| anyhow::anyhow!("no effector {effector}"))?;
         // One stack whose hold is replaced per trial keeps the buffers' shapes fixed.
-        let mut stack = ConstraintStack::new().with(FrameMatch::point_grip(&robot, effector, Pose::identity(), MatchMode::Full)?);
+        let mut stack = ConstraintStack::new().with(FrameMatch::point_grip(
+            &robot,
+            effector,
+            Pose::identity(),
+            MatchMode::Full,
+        )?);
         let mut buf = ProjectionBuffer::new(&robot, &stack);
         for _ in 0..trials {
             let q0 = robot.random_configuration(&mut rng);
             forward_kinematics(&robot, &q0, &mut poses)?;
             let hold = poses[e.link] * e.grip;
-            stack = ConstraintStack::new().with(FrameMatch::point_grip(&robot, effector, hold, MatchMode::Full)?);
-            let mut q: Vec<f64> = q0.iter().map(|x| x + rng.random_range(-delta..=delta)).collect();
+            stack = ConstraintStack::new().with(FrameMatch::point_grip(
+                &robot,
+                effector,
+                hold,
+                MatchMode::Full,
+            )?);
+            let mut q: Vec<f64> = q0
+                .iter()
+                .map(|x| x + rng.random_range(-delta..=delta))
+                .collect();
             let t = Instant::now();
             let rep = project(&robot, &stack, &settings, &mut q, &mut buf)?;
             times.push(t.elapsed().as_secs_f64() * 1e6);

@@ -162,16 +162,7 @@ fn twin_stack(
         }
         _ => s
             .with(bar_through(robot, "right", &right, 0.8, false))
-            .with(
-                KeepLevel::new(
-                    FrameRef::effector(robot, "left").unwrap(),
-                    Vector3::x(),
-                    Vector3::z(),
-                    0.3,
-                    "left tilt",
-                )
-                .unwrap(),
-            )
+            .with(KeepLevel::new(lframe, Vector3::x(), left_up, 0.3, "left tilt").unwrap())
             .with(FrameMatch::point_grip(robot, "left", left, MatchMode::Position).unwrap()),
     }
 }
