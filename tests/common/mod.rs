@@ -193,3 +193,173 @@ pub fn twin() -> Robot {
     .build()
     .unwrap()
 }
+
+// ---------------------------------------------------------------------------------------
+// Helpers for the projection / manifold-walk acceptance tests.
+
+use clamber::constraint::{
+    Constraint, ConstraintError, ConstraintStack, EvalContext, FrameRef, JacobianRows,
+};
+use clamber::model::JointKind;
+
+/// Pins a one-DOF revolute joint at an angle: 1 row, `wrap(angle - target)` with the angle
+/// read from the link poses (the constraint interface sees poses, not `q`): the rotation of
+/// the child frame relative to the joint frame on the parent, about the joint axis. The
+/// Jacobian row is the joint axis (world) dotted with the relative angular velocity
+/// `w_child - w_parent`, from the frame Jacobians; for a chain this is 1 in the joint's own
+/// column.
+#[derive(Clone, Debug)]
+pub struct JointPin {
+    pub joint: usize,
+    pub target: f64,
+}
+
+impl JointPin {
+    pub fn new(robot: &Robot, joint: &str, target: f64) -> Self {
+        let joint = robot.joint_id(joint).expect("joint exists");
+        assert!(matches!(
+            robot.joints()[joint].kind,
+            JointKind::Revolute { .. }
+        ));
+        JointPin { joint, target }
+    }
+}
+
+/// Wrap an angle into (-pi, pi].
+pub fn wrap_angle(a: f64) -> f64 {
+    let tau = std::f64::consts::TAU;
+    let mut x = a.rem_euclid(tau);
+    if x > std::f64::consts::PI {
+        x -= tau;
+    }
+    x
+}
+
+impl Constraint for JointPin {
+    fn rows(&self) -> usize {
+        1
+    }
+    fn codimension(&self) -> usize {
+        1
+    }
+    fn describe(&self) -> String {
+        format!("pin joint {} at {}", self.joint, self.target)
+    }
+    fn evaluate(
+        &self,
+        ctx: &mut EvalContext<'_>,
+        residual: &mut [f64],
+        jacobian: Option<JacobianRows<'_>>,
+    ) -> Result<(), ConstraintError> {
+        let j = &ctx.robot.joints()[self.joint];
+        let JointKind::Revolute { axis } = &j.kind else {
+            unreachable!("checked in new")
+        };
+        let a = axis.into_inner();
+        let frame = ctx.poses[j.parent] * j.origin; // joint frame (before the motion)
+        let rel = frame.rotation.inverse() * ctx.poses[j.child].rotation;
+        let u = perpendicular(&a);
+        let v = rel * u;
+        let angle = a.dot(&u.cross(&v)).atan2(u.dot(&v));
+        residual[0] = wrap_angle(angle - self.target);
+        if let Some(mut jac) = jacobian {
+            let a_world = frame.rotation * a;
+            let child = FrameRef {
+                link: j.child,
+                offset: Pose::identity(),
+            };
+            let parent = FrameRef {
+                link: j.parent,
+                offset: Pose::identity(),
+            };
+            ctx.frame_jacobian(&child)?;
+            let wc = ctx.scratch.rows(3, 3).into_owned();
+            ctx.frame_jacobian(&parent)?;
+            let wp = ctx.scratch.rows(3, 3).into_owned();
+            jac.row_mut(0).copy_from(&(a_world.transpose() * (wc - wp)));
+        }
+        Ok(())
+    }
+}
+
+/// A unit vector perpendicular to unit `a`.
+pub fn perpendicular(a: &Vector3<f64>) -> Vector3<f64> {
+    let p = if a.x.abs() < 0.6 {
+        Vector3::x()
+    } else {
+        Vector3::y()
+    };
+    a.cross(&p).normalize()
+}
+
+/// Largest absolute difference between the stack's analytic Jacobian at `q` and central
+/// finite differences (step 1e-6) taken through `Robot::integrate`.
+pub fn jacobian_fd_error(robot: &Robot, stack: &ConstraintStack, q: &[f64]) -> f64 {
+    const H: f64 = 1e-6;
+    let mut buf = stack.buffer(robot);
+    stack.evaluate(robot, q, &mut buf, true).unwrap();
+    let jac = buf.jacobian.clone();
+    let mut v = vec![0.0; robot.nv()];
+    let (mut qp, mut qm) = (vec![0.0; robot.nq()], vec![0.0; robot.nq()]);
+    let mut worst: f64 = 0.0;
+    for k in 0..robot.nv() {
+        v.iter_mut().for_each(|x| *x = 0.0);
+        v[k] = H;
+        robot.integrate(q, &v, &mut qp).unwrap();
+        v[k] = -H;
+        robot.integrate(q, &v, &mut qm).unwrap();
+        stack.evaluate(robot, &qp, &mut buf, false).unwrap();
+        let rp = buf.residual.clone();
+        stack.evaluate(robot, &qm, &mut buf, false).unwrap();
+        let rm = buf.residual.clone();
+        for r in 0..stack.rows() {
+            let fd = (rp[r] - rm[r]) / (2.0 * H);
+            worst = worst.max((fd - jac[(r, k)]).abs());
+        }
+    }
+    worst
+}
+
+/// A point robot: three prismatic joints x, y, z (box limits `[-half, half]`), the point
+/// being the origin of link `point`.
+pub fn point_robot(half: f64) -> Robot {
+    let mut joints = vec![];
+    let mut links = vec![LinkSpec {
+        name: "world".into(),
+        shapes: vec![],
+    }];
+    let mut parent = "world".to_string();
+    for (name, axis) in [
+        ("x", [1.0, 0.0, 0.0]),
+        ("y", [0.0, 1.0, 0.0]),
+        ("z", [0.0, 0.0, 1.0]),
+    ] {
+        let child = if name == "z" {
+            "point".to_string()
+        } else {
+            format!("slide_{name}")
+        };
+        links.push(LinkSpec {
+            name: child.clone(),
+            shapes: vec![],
+        });
+        joints.push(joint(
+            name,
+            JointType::Prismatic,
+            &parent,
+            &child,
+            [0.0; 3],
+            axis,
+            Some((-half, half)),
+        ));
+        parent = child;
+    }
+    RobotSpec {
+        name: "point".into(),
+        links,
+        joints,
+        ..Default::default()
+    }
+    .build()
+    .unwrap()
+}
