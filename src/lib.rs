@@ -18,6 +18,7 @@ pub mod projection;
 pub mod report;
 pub mod robot_file;
 pub mod sampling;
+pub mod settings;
 pub mod walk;
 
 pub use math::Pose;

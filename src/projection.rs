@@ -7,22 +7,13 @@
 //! `lambda` shrinks after a step that lowers the residual and grows after one that does not.
 
 use nalgebra::{Cholesky, DMatrix, DVector};
-use thiserror::Error;
 
+use crate::configuration::ConfigurationError;
 use crate::constraint::{ConstraintError, ConstraintStack, StackBuffer};
-use crate::model::Robot;
+use crate::model::{JointKind, Robot};
 
-/// Settings that are out of range.
-#[derive(Debug, Error, Clone, PartialEq)]
-#[non_exhaustive]
-pub enum SettingsError {
-    #[error("`{name}` must be {expected}, got {got}")]
-    OutOfRange {
-        name: &'static str,
-        expected: &'static str,
-        got: f64,
-    },
-}
+use crate::settings::positive;
+pub use crate::settings::SettingsError;
 
 /// How hard to try. Build with [`ProjectionSettings::new`] (checked) or `default()`.
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -42,18 +33,6 @@ impl Default for ProjectionSettings {
             max_iterations: 50,
             max_step: 0.5,
         }
-    }
-}
-
-pub(crate) fn positive(name: &'static str, v: f64) -> Result<f64, SettingsError> {
-    if v.is_finite() && v > 0.0 {
-        Ok(v)
-    } else {
-        Err(SettingsError::OutOfRange {
-            name,
-            expected: "positive and finite",
-            got: v,
-        })
     }
 }
 
@@ -123,11 +102,24 @@ pub struct ProjectionBuffer {
     y: DVector<f64>,
     dq: DVector<f64>,
     q_try: Vec<f64>,
+    /// For each tangent coordinate of a one-DOF joint: its `q` index and position limits.
+    bounds: Vec<Option<(usize, f64, f64)>>,
+    /// Tangent coordinates held at a limit during the current step.
+    held: Vec<bool>,
 }
 
 impl ProjectionBuffer {
     pub fn new(robot: &Robot, stack: &ConstraintStack) -> Self {
         let m = stack.rows();
+        let mut bounds = vec![None; robot.nv()];
+        for j in robot.joints() {
+            if matches!(
+                j.kind,
+                JointKind::Revolute { .. } | JointKind::Prismatic { .. }
+            ) {
+                bounds[j.v_index] = Some((j.q_index, j.limits[0].lower, j.limits[0].upper));
+            }
+        }
         ProjectionBuffer {
             stack: stack.buffer(robot),
             normal: Some(DMatrix::zeros(m, m)),
@@ -135,6 +127,8 @@ impl ProjectionBuffer {
             y: DVector::zeros(m),
             dq: DVector::zeros(robot.nv()),
             q_try: vec![0.0; robot.nq()],
+            bounds,
+            held: vec![false; robot.nv()],
         }
     }
 }
@@ -142,9 +136,66 @@ impl ProjectionBuffer {
 const LAMBDA_START: f64 = 1e-6;
 const LAMBDA_MIN: f64 = 1e-12;
 const LAMBDA_MAX: f64 = 1e8;
+/// A coordinate this close to a limit (radians or metres) counts as at the limit.
+const AT_LIMIT: f64 = 1e-12;
+/// Times the step is re-solved with more coordinates held at their limits.
+const HOLD_PASSES: usize = 4;
+
+/// One damped step: `(J J^T + lambda I) y = -F`, `dq = J^T y`, with the columns of coordinates
+/// held at a limit removed. `false` if the system could not be factorized.
+fn damped_step(buf: &mut ProjectionBuffer, lambda: f64) -> bool {
+    buf.stack.jacobian.transpose_to(&mut buf.jt);
+    for (i, held) in buf.held.iter().enumerate() {
+        if *held {
+            buf.jt.row_mut(i).fill(0.0);
+        }
+    }
+    let Some(mut a) = buf.normal.take() else {
+        return false;
+    };
+    a.gemm_tr(1.0, &buf.jt, &buf.jt, 0.0); // J J^T
+    for i in 0..a.nrows() {
+        a[(i, i)] += lambda;
+    }
+    let m = a.nrows();
+    match Cholesky::new(a) {
+        Some(chol) => {
+            buf.y.copy_from(&buf.stack.residual);
+            buf.y.neg_mut();
+            chol.solve_mut(&mut buf.y);
+            buf.normal = Some(chol.unpack_dirty());
+            buf.dq.gemv(1.0, &buf.jt, &buf.y, 0.0);
+            true
+        }
+        None => {
+            buf.normal = Some(DMatrix::zeros(m, m));
+            false
+        }
+    }
+}
+
+/// Hold every one-DOF coordinate that sits at a limit and whose step points out of it.
+/// Returns true if a coordinate was newly held.
+fn hold_outward(q: &[f64], buf: &mut ProjectionBuffer) -> bool {
+    let mut changed = false;
+    for (i, b) in buf.bounds.iter().enumerate() {
+        if let Some((qi, lo, hi)) = *b {
+            let d = buf.dq[i];
+            if !buf.held[i]
+                && ((q[qi] <= lo + AT_LIMIT && d < 0.0) || (q[qi] >= hi - AT_LIMIT && d > 0.0))
+            {
+                buf.held[i] = true;
+                changed = true;
+            }
+        }
+    }
+    changed
+}
 
 /// Project `q` (in place) onto the manifold of `stack`. `q` stays within the joint limits
-/// (it is clamped into them first). Errors only for mismatched sizes.
+/// (it is clamped into them first; coordinates at a limit whose step points outward are
+/// held there and the step is re-solved without them). Errors for invalid settings, a
+/// configuration that is not finite or has the wrong length, and mismatched buffers.
 pub fn project(
     robot: &Robot,
     stack: &ConstraintStack,
@@ -152,6 +203,26 @@ pub fn project(
     q: &mut [f64],
     buf: &mut ProjectionBuffer,
 ) -> Result<ProjectionReport, ConstraintError> {
+    settings.validate()?;
+    robot.check_configuration(q).or_else(|e| match e {
+        // Quaternions off unit length are renormalized below; anything else is an error.
+        ConfigurationError::NotUnit { .. } => Ok(()),
+        e => Err(e),
+    })?;
+    if buf.bounds.len() != robot.nv() {
+        return Err(ConstraintError::WrongRobot {
+            expected: buf.bounds.len(),
+            got: robot.nv(),
+        });
+    }
+    if buf.q_try.len() != robot.nq() {
+        let e = ConfigurationError::Length {
+            what: "projection buffer configuration",
+            got: buf.q_try.len(),
+            expected: robot.nq(),
+        };
+        return Err(e.into());
+    }
     robot.clamp_to_limits(q);
     let mut err = stack.evaluate(robot, q, &mut buf.stack, true)?;
     let mut lambda = LAMBDA_START;
@@ -172,42 +243,28 @@ pub fn project(
             });
         }
         iterations += 1;
-        // Damped step: (J J^T + lambda I) y = -F, dq = J^T y. Retry with more damping until the
-        // residual goes down.
+        // Retry with more damping until the residual goes down.
         loop {
-            let j = &buf.stack.jacobian;
-            let Some(mut a) = buf.normal.take() else {
-                return Ok(ProjectionReport {
-                    stop: StopReason::Singular,
-                    iterations,
-                    residual: err,
-                });
-            };
-            j.transpose_to(&mut buf.jt);
-            a.gemm_tr(1.0, &buf.jt, &buf.jt, 0.0); // J J^T
-            for i in 0..a.nrows() {
-                a[(i, i)] += lambda;
-            }
-            let chol = match Cholesky::new(a) {
-                Some(c) => c,
-                None => {
-                    buf.normal = Some(DMatrix::zeros(stack.rows(), stack.rows()));
-                    if lambda >= LAMBDA_MAX {
-                        return Ok(ProjectionReport {
-                            stop: StopReason::Singular,
-                            iterations,
-                            residual: err,
-                        });
-                    }
-                    lambda *= 10.0;
-                    continue;
+            buf.held.iter_mut().for_each(|h| *h = false);
+            let mut solved = damped_step(buf, lambda);
+            for _ in 0..HOLD_PASSES {
+                if !solved || !hold_outward(q, buf) {
+                    break;
                 }
-            };
-            buf.y.copy_from(&buf.stack.residual);
-            buf.y.neg_mut();
-            chol.solve_mut(&mut buf.y);
-            buf.normal = Some(chol.unpack_dirty());
-            buf.dq.gemv(1.0, &buf.jt, &buf.y, 0.0);
+                solved = damped_step(buf, lambda);
+            }
+            let any_held = buf.held.iter().any(|h| *h);
+            if !solved {
+                if lambda >= LAMBDA_MAX {
+                    return Ok(ProjectionReport {
+                        stop: StopReason::Singular,
+                        iterations,
+                        residual: err,
+                    });
+                }
+                lambda *= 10.0;
+                continue;
+            }
             let norm = buf.dq.norm();
             if norm > settings.max_step {
                 buf.dq *= settings.max_step / norm;
@@ -222,9 +279,9 @@ pub fn project(
                 break;
             }
             // Rejected: restore the Jacobian at q and damp harder.
+            stack.evaluate(robot, q, &mut buf.stack, true)?;
             if lambda >= LAMBDA_MAX {
-                stack.evaluate(robot, q, &mut buf.stack, true)?;
-                let stop = if clamped {
+                let stop = if clamped || any_held {
                     StopReason::BlockedByLimits
                 } else {
                     StopReason::Stalled
@@ -236,7 +293,6 @@ pub fn project(
                 });
             }
             lambda *= 10.0;
-            stack.evaluate(robot, q, &mut buf.stack, true)?;
         }
     }
 }

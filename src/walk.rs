@@ -9,9 +9,8 @@
 
 use crate::constraint::{ConstraintError, ConstraintStack};
 use crate::model::Robot;
-use crate::projection::{
-    positive, project, ProjectionBuffer, ProjectionSettings, SettingsError, StopReason,
-};
+use crate::projection::{project, ProjectionBuffer, ProjectionSettings, SettingsError, StopReason};
+use crate::settings::positive;
 
 /// Walk settings. Build with [`WalkSettings::new`] (checked).
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -26,6 +25,17 @@ pub struct WalkSettings {
 }
 
 impl WalkSettings {
+    /// Check settings that were built field by field.
+    pub fn validate(&self) -> Result<(), SettingsError> {
+        Self::new(
+            self.stride,
+            self.max_deviation,
+            self.max_steps,
+            self.projection,
+        )
+        .map(|_| ())
+    }
+
     pub fn new(
         stride: f64,
         max_deviation: f64,
@@ -96,6 +106,11 @@ impl Walk {
     }
 }
 
+/// A step must bring the walk closer to the target by at least this fraction of its length.
+const MIN_PROGRESS: f64 = 1e-3;
+/// Times a step that projects longer than the stride is halved before the walk gives up.
+const MAX_HALVINGS: usize = 4;
+
 /// Walk from `qa` toward `qb`. `qa` must be on the manifold; `qb` need not be (the walk then
 /// gets as close as it can and ends with `NoProgress`).
 pub fn walk(
@@ -106,31 +121,38 @@ pub fn walk(
     settings: &WalkSettings,
     buf: &mut ProjectionBuffer,
 ) -> Result<Walk, ConstraintError> {
+    settings.validate()?;
+    robot.check_configuration(qa)?;
+    robot.check_configuration(qb)?;
     let tol = settings.projection.tolerance;
     let mut projections = 0;
     let start_res = stack.evaluate(robot, qa, &mut buf.stack, false)?;
     let mut path = vec![qa.to_vec()];
-    if start_res > tol {
-        return Ok(Walk {
+    let done = |path, stop, projections| {
+        Ok(Walk {
             path,
-            stop: WalkStop::StartOffManifold {
+            stop,
+            projections,
+        })
+    };
+    if start_res.is_nan() || start_res > tol {
+        return done(
+            path,
+            WalkStop::StartOffManifold {
                 residual: start_res,
             },
             projections,
-        });
+        );
     }
-    let nv = robot.nv();
-    let mut dir = vec![0.0; nv];
+    let mut dir = vec![0.0; robot.nv()];
+    let mut scaled = vec![0.0; robot.nv()];
     let mut q = qa.to_vec();
     let mut step_q = vec![0.0; robot.nq()];
+    let mut unprojected = vec![0.0; robot.nq()];
     let mut dist = robot.distance(&q, qb)?;
     for _ in 0..settings.max_steps {
         if dist == 0.0 {
-            return Ok(Walk {
-                path,
-                stop: WalkStop::Reached,
-                projections,
-            });
+            return done(path, WalkStop::Reached, projections);
         }
         // Last stride: take qb itself if it is on the manifold.
         if dist <= settings.stride
@@ -138,74 +160,59 @@ pub fn walk(
             && robot.within_limits(qb, 0.0)
         {
             path.push(qb.to_vec());
-            return Ok(Walk {
-                path,
-                stop: WalkStop::Reached,
-                projections,
-            });
+            return done(path, WalkStop::Reached, projections);
         }
         robot.difference(&q, qb, &mut dir)?;
         let mut frac = (settings.stride / dist).min(1.0);
-        let mut accepted = None;
-        for _halving in 0..4 {
-            let scaled: Vec<f64> = dir.iter().map(|d| d * frac).collect();
+        let mut halvings = 0;
+        let new_dist = loop {
             let step_len = dist * frac;
+            scaled.iter_mut().zip(&dir).for_each(|(s, d)| *s = d * frac);
             robot.integrate(&q, &scaled, &mut step_q)?;
-            let unprojected = step_q.clone();
+            unprojected.copy_from_slice(&step_q);
             let rep = project(robot, stack, &settings.projection, &mut step_q, buf)?;
             projections += 1;
             if !rep.converged() {
-                return Ok(Walk {
-                    path,
-                    stop: WalkStop::ProjectionFailed {
-                        reason: rep.stop,
-                        residual: rep.residual,
-                    },
-                    projections,
-                });
+                let stop = WalkStop::ProjectionFailed {
+                    reason: rep.stop,
+                    residual: rep.residual,
+                };
+                return done(path, stop, projections);
+            }
+            // Progress first: near the closest point to an off-manifold target the step is
+            // almost normal to the manifold and projection undoes it; that is the end of the
+            // walk, not a branch jump.
+            let new_dist = robot.distance(&step_q, qb)?;
+            if dist - new_dist < MIN_PROGRESS * step_len {
+                return done(path, WalkStop::NoProgress { distance: dist }, projections);
             }
             let deviation = robot.distance(&unprojected, &step_q)?;
             if deviation > settings.max_deviation * step_len {
-                return Ok(Walk {
+                return done(
                     path,
-                    stop: WalkStop::Deviated {
+                    WalkStop::Deviated {
                         ratio: deviation / step_len,
                     },
                     projections,
-                });
+                );
             }
             let moved = robot.distance(&q, &step_q)?;
             if moved <= settings.stride {
-                accepted = Some(step_q.clone());
-                break;
+                break new_dist;
+            }
+            halvings += 1;
+            if halvings > MAX_HALVINGS {
+                return done(
+                    path,
+                    WalkStop::StrideExceeded { length: moved },
+                    projections,
+                );
             }
             frac *= 0.5;
-            if _halving == 3 {
-                return Ok(Walk {
-                    path,
-                    stop: WalkStop::StrideExceeded { length: moved },
-                    projections,
-                });
-            }
-        }
-        let Some(next) = accepted else {
-            return Ok(Walk {
-                path,
-                stop: WalkStop::StepLimit,
-                projections,
-            });
         };
-        let new_dist = robot.distance(&next, qb)?;
-        if new_dist >= dist {
-            return Ok(Walk {
-                path,
-                stop: WalkStop::NoProgress { distance: dist },
-                projections,
-            });
-        }
         dist = new_dist;
-        q.copy_from_slice(&next);
-        path.push(next);
+        q.copy_from_slice(&step_q);
+        path.push(step_q.clone());
     }
     Ok(Walk {
         path,

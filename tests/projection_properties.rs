@@ -277,7 +277,6 @@ fn reachable_cases_mostly_converge() {
 /// iterations fail although 5000 iterations converge (so a solution inside the limits
 /// exists and projection finds it, slowly).
 #[test]
-#[ignore = "bug: clamped LM steps crawl when a coordinate sits at its limit (IterationCap, not BlockedByLimits)"]
 fn projection_at_a_joint_limit_converges_within_default_iterations() {
     let mut rng = ChaCha8Rng::seed_from_u64(99);
     let robot = common::arm7();

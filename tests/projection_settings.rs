@@ -234,7 +234,6 @@ fn buffer_from_robot_with_same_nv_but_other_nq_is_an_error() {
 /// negative stride or zero steps give silent non-answers (`IterationCap`, `StrideExceeded`,
 /// `StepLimit`) instead of a typed error.
 #[test]
-#[ignore = "bug: project/walk do not validate settings built field by field"]
 fn project_and_walk_reject_invalid_settings() {
     let (robot, stack, q) = arm_and_grip();
     let mut buf = ProjectionBuffer::new(&robot, &stack);
@@ -305,7 +304,6 @@ fn project_and_walk_reject_invalid_settings() {
 /// `project` returns `Ok` with NaN coordinates (outside every limit), and `walk` starts
 /// from a NaN `qa` because `NaN > tolerance` is false, so `StartOffManifold` is skipped.
 #[test]
-#[ignore = "bug: project/walk accept a non-finite configuration"]
 fn non_finite_configuration_is_an_error() {
     let (robot, stack, q) = arm_and_grip();
     let mut buf = ProjectionBuffer::new(&robot, &stack);
@@ -336,7 +334,6 @@ fn non_finite_configuration_is_an_error() {
 /// its own link ids (`FrameRef::pose` is `poses[self.link]`), so evaluating it on a robot
 /// with fewer links panics instead of returning an error.
 #[test]
-#[ignore = "bug: constraint built for a bigger robot panics (index out of bounds) on a smaller one"]
 fn constraint_from_another_robot_is_an_error() {
     let twin = common::twin();
     let arm = common::arm7();

@@ -89,6 +89,9 @@ impl Constraint for BarGrip {
     fn codimension(&self) -> usize {
         2 + self.orientation_rows()
     }
+    fn max_link(&self) -> crate::model::LinkId {
+        self.effector.link
+    }
     fn describe(&self) -> String {
         format!(
             "{} ({} rows, {} m bar{})",

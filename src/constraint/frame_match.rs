@@ -120,6 +120,9 @@ impl Constraint for FrameMatch {
     fn codimension(&self) -> usize {
         self.rows()
     }
+    fn max_link(&self) -> crate::model::LinkId {
+        self.a.link.max(self.b.link)
+    }
     fn describe(&self) -> String {
         let kind = match self.mode {
             MatchMode::Full => "pose",

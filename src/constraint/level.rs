@@ -75,6 +75,9 @@ impl Constraint for KeepLevel {
             0
         }
     }
+    fn max_link(&self) -> crate::model::LinkId {
+        self.frame.link
+    }
     fn describe(&self) -> String {
         if self.max_angle == 0.0 {
             format!("{} (axis level, 2 rows)", self.label)

@@ -17,6 +17,7 @@ use crate::configuration::ConfigurationError;
 use crate::kinematics::{forward_kinematics, frame_jacobian, KinematicsError};
 use crate::math::Pose;
 use crate::model::{LinkId, Robot};
+use crate::settings::SettingsError;
 
 mod bar;
 mod frame_match;
@@ -38,6 +39,14 @@ pub enum ConstraintError {
     Kinematics(#[from] KinematicsError),
     #[error(transparent)]
     Configuration(#[from] ConfigurationError),
+    #[error(transparent)]
+    Settings(#[from] SettingsError),
+    #[error("constraint `{constraint}` refers to link {link}, the robot has {links} links")]
+    LinkOutOfRange {
+        constraint: String,
+        link: usize,
+        links: usize,
+    },
     #[error("no effector named `{0}`")]
     NoSuchEffector(String),
     #[error("no link named `{0}`")]
@@ -124,6 +133,11 @@ pub trait Constraint: Debug + Send + Sync {
     fn codimension(&self) -> usize;
     /// A short description for reports, e.g. `grip hand on hold h3 (6 rows)`.
     fn describe(&self) -> String;
+    /// The largest link id this constraint's frames are on (checked against the robot before
+    /// every evaluation, so a constraint built for another robot is an error, not a panic).
+    fn max_link(&self) -> LinkId {
+        0
+    }
     /// Write the residual into `residual` (length `rows()`) and, when given, the Jacobian
     /// rows into `jacobian` (`rows() x nv`).
     fn evaluate(
@@ -203,6 +217,17 @@ impl ConstraintStack {
             });
         }
         forward_kinematics(robot, q, &mut buf.poses)?;
+        let n_links = robot.links().len();
+        for c in &self.items {
+            let link = c.max_link();
+            if link >= n_links {
+                return Err(ConstraintError::LinkOutOfRange {
+                    constraint: c.describe(),
+                    link,
+                    links: n_links,
+                });
+            }
+        }
         let mut ctx = EvalContext {
             robot,
             poses: &buf.poses,
