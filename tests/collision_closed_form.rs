@@ -406,3 +406,52 @@ fn capsule_box_face_gap() {
     );
     assert_close(c.distance, 0.25, "capsule-box");
 }
+
+#[test]
+fn capsule_cylinder_side_and_cap() {
+    // Cylinder radius 0.2, length 0.8 along z at the origin.
+    let cyl = || {
+        shape(
+            Geometry::Cylinder {
+                radius: 0.2,
+                length: 0.8,
+            },
+            Pose::identity(),
+        )
+    };
+    // Capsule parallel to the axis, axis 0.5 away: distance = 0.5 - R - r (side wall).
+    let c = clearance(
+        shape(
+            capsule(0.05, 0.4),
+            pose_from_xyz_rpy([0.3, 0.4, 0.1], [0.0; 3]),
+        ),
+        cyl(),
+    );
+    assert_close(c.distance, 0.5 - 0.2 - 0.05, "capsule beside cylinder");
+    // Capsule lying across above the cap, axis at height 0.7: distance = 0.7 - h - r.
+    let c = clearance(
+        shape(
+            capsule(0.05, 1.0),
+            pose_from_xyz_rpy([0.05, 0.0, 0.7], [0.0, std::f64::consts::FRAC_PI_2, 0.3]),
+        ),
+        cyl(),
+    );
+    assert_close(c.distance, 0.7 - 0.4 - 0.05, "capsule over cylinder cap");
+    // Tilted capsule whose nearest point is its lower cap centre at (0.5, 0, 0.6), beyond
+    // the rim circle: |(rho - R, z - h)| - r = |(0.3, 0.2)| - r.
+    let c = clearance(
+        shape(
+            capsule(0.05, 0.4),
+            pose_from_xyz_rpy(
+                [0.5 + 0.2 * 0.6, 0.0, 0.6 + 0.2 * 0.8],
+                [0.0, 0.6435011087932844, 0.0],
+            ),
+        ),
+        cyl(),
+    );
+    assert_close(
+        c.distance,
+        0.13f64.sqrt() - 0.05,
+        "capsule past the cylinder rim",
+    );
+}
