@@ -98,7 +98,6 @@ impl ProjectionReport {
 pub struct ProjectionBuffer {
     pub stack: StackBuffer,
     normal: Option<DMatrix<f64>>,
-    jt: DMatrix<f64>,
     y: DVector<f64>,
     dq: DVector<f64>,
     q_try: Vec<f64>,
@@ -123,7 +122,6 @@ impl ProjectionBuffer {
         ProjectionBuffer {
             stack: stack.buffer(robot),
             normal: Some(DMatrix::zeros(m, m)),
-            jt: DMatrix::zeros(robot.nv(), m),
             y: DVector::zeros(m),
             dq: DVector::zeros(robot.nv()),
             q_try: vec![0.0; robot.nq()],
@@ -143,28 +141,49 @@ const HOLD_PASSES: usize = 4;
 
 /// One damped step: `(J J^T + lambda I) y = -F`, `dq = J^T y`, with the columns of coordinates
 /// held at a limit removed. `false` if the system could not be factorized.
+///
+/// `J J^T` and `J^T y` are written out as loops over the column-major Jacobian: for the small
+/// shapes here (6 x 7) nalgebra's dynamically sized gemm/transpose took about a quarter of
+/// the projection time (measured with callgrind, see docs/performance.md).
 fn damped_step(buf: &mut ProjectionBuffer, lambda: f64) -> bool {
-    buf.stack.jacobian.transpose_to(&mut buf.jt);
-    for (i, held) in buf.held.iter().enumerate() {
-        if *held {
-            buf.jt.row_mut(i).fill(0.0);
+    let m = buf.stack.jacobian.nrows();
+    let Some(mut a) = buf.normal.take() else { return false };
+    a.fill(0.0);
+    {
+        let jd = buf.stack.jacobian.as_slice();
+        let ad = a.as_mut_slice();
+        for (c, held) in buf.held.iter().enumerate() {
+            if *held {
+                continue;
+            }
+            let col = &jd[c * m..c * m + m];
+            // Lower triangle of the rank-one update col col^T (Cholesky reads only that).
+            for k in 0..m {
+                let ck = col[k];
+                if ck == 0.0 {
+                    continue;
+                }
+                let out = &mut ad[k * m..k * m + m];
+                for i in k..m {
+                    out[i] += col[i] * ck;
+                }
+            }
         }
     }
-    let Some(mut a) = buf.normal.take() else {
-        return false;
-    };
-    a.gemm_tr(1.0, &buf.jt, &buf.jt, 0.0); // J J^T
-    for i in 0..a.nrows() {
+    for i in 0..m {
         a[(i, i)] += lambda;
     }
-    let m = a.nrows();
     match Cholesky::new(a) {
         Some(chol) => {
             buf.y.copy_from(&buf.stack.residual);
             buf.y.neg_mut();
             chol.solve_mut(&mut buf.y);
             buf.normal = Some(chol.unpack_dirty());
-            buf.dq.gemv(1.0, &buf.jt, &buf.y, 0.0);
+            let jd = buf.stack.jacobian.as_slice();
+            let y = buf.y.as_slice();
+            for (c, (dq, held)) in buf.dq.iter_mut().zip(&buf.held).enumerate() {
+                *dq = if *held { 0.0 } else { jd[c * m..c * m + m].iter().zip(y).map(|(j, y)| j * y).sum() };
+            }
             true
         }
         None => {
