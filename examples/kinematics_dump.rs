@@ -226,6 +226,7 @@ fn lim(lower: f64, upper: f64) -> Vec<Limits> {
     }]
 }
 
+#[allow(clippy::too_many_arguments)] // one table row per joint
 fn joint(
     name: &str,
     t: JointType,
@@ -429,7 +430,7 @@ fn mobile_spec() -> RobotSpec {
             [0.0; 3],
             [0.0; 3],
             [0.0, 0.0, 1.0],
-            lim(-3.14, 3.14),
+            lim(-3.1, 3.1),
         ),
     ];
     let (al, aj, ap) = arm("arm_", "chassis", [0.2, 0.0, 0.35], [0.0; 3]);
@@ -448,6 +449,7 @@ fn mobile_spec() -> RobotSpec {
 /// a floating root and a second floating joint below a revolute one (a carried body),
 /// an unbounded revolute joint, and rotations within 1e-7 of pitch = +-pi/2 (as a URDF
 /// author writing 1.5707963 produces), where a roll-pitch-yaw export must not lose digits.
+#[allow(clippy::approx_constant)] // 1.5707963: deliberately NOT exactly pi/2
 fn mixed_spec() -> RobotSpec {
     let unbounded = vec![];
     RobotSpec {
