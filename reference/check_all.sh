@@ -1,0 +1,53 @@
+#!/usr/bin/env bash
+# Compare Clamber's forward kinematics and frame Jacobians with Pinocchio (PyPI `pin`) for
+# every robot file in robots/*.toml plus the robots built into the dump example (those
+# cover oblique axes, a floating joint below the root and unbounded revolute joints).
+#
+#   reference/check_all.sh                 # robots/*.toml + builtins, N=1000 each
+#   reference/check_all.sh --builtins-only # while robots/ is not there
+#
+# Env: N (configurations per robot, default 1000), SEED (default 1), CARGO_TARGET_DIR.
+# Needs: python3 with `pip install -r reference/requirements.txt`.
+set -euo pipefail
+cd "$(dirname "$0")/.."
+
+N="${N:-1000}"
+SEED="${SEED:-1}"
+BUILTINS=(arm7 climber mobile mixed)
+builtins_only=0
+if [[ "${1:-}" == "--builtins-only" ]]; then builtins_only=1; fi
+
+if ! python3 -c "import pinocchio, numpy" 2>/dev/null; then
+    echo "reference/check_all.sh: Python packages missing; run: pip install -r reference/requirements.txt" >&2
+    exit 2
+fi
+
+shopt -s nullglob
+files=(robots/*.toml)
+if [[ $builtins_only == 0 && ${#files[@]} == 0 ]]; then
+    echo "reference/check_all.sh: no robots/*.toml found (use --builtins-only to check only the builtin robots)" >&2
+    exit 2
+fi
+[[ $builtins_only == 1 ]] && files=()
+
+cargo build --quiet --example kinematics_dump
+target="${CARGO_TARGET_DIR:-target}"
+dump="$target/debug/examples/kinematics_dump"
+
+out="$(mktemp -d)"
+trap 'rm -rf "$out"' EXIT
+dirs=()
+for f in "${files[@]}"; do
+    name="$(basename "$f" .toml)"
+    "$dump" "$f" --count "$N" --seed "$SEED" --out "$out/$name"
+    dirs+=("$out/$name")
+done
+for b in "${BUILTINS[@]}"; do
+    "$dump" --builtin "$b" --count "$N" --seed "$SEED" --out "$out/builtin-$b"
+    dirs+=("$out/builtin-$b")
+done
+
+# The comparison must be able to fail: a corrupted Jacobian column has to be caught.
+python3 reference/pinocchio_check.py --negative-control --min-samples "$N" "${dirs[-1]}" > "$out/negative.log" || {
+    cat "$out/negative.log"; echo "negative control failed" >&2; exit 1; }
+python3 reference/pinocchio_check.py --min-samples "$N" "${dirs[@]}"
