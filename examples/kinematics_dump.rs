@@ -24,6 +24,7 @@ use anyhow::{bail, Context, Result};
 use clamber::kinematics::{forward_kinematics, frame_jacobian};
 use clamber::math::{pose_from_xyz_rpy, Pose};
 use clamber::model::{EffectorSpec, JointSpec, JointType, Limits, LinkSpec, Robot, RobotSpec};
+use clamber::robot_file::urdf::write_urdf;
 use clap::Parser;
 use nalgebra::{DMatrix, Vector3};
 use rand::SeedableRng;
@@ -547,101 +548,3 @@ fn mixed_spec() -> RobotSpec {
 }
 
 // ---------------------------------------------------------------------------------------
-// TEMPORARY — REMOVE AT MERGE. A minimal private URDF writer, only so the Python side could
-// be developed while `clamber::robot_file::urdf::write_urdf` is not on this branch. At
-// merge: delete this section and replace it with
-//     use clamber::robot_file::urdf::write_urdf;
-// (same signature: `pub fn write_urdf(robot: &Robot) -> String`, and the export also adds
-// each effector's grip frame as a fixed joint and a child link named `<effector>_grip`).
-fn write_urdf(robot: &Robot) -> String {
-    use clamber::model::JointKind;
-    use std::fmt::Write;
-    let v3 = |v: [f64; 3]| format!("{:?} {:?} {:?}", v[0], v[1], v[2]);
-    let origin = |p: &Pose| {
-        let t = p.translation.vector;
-        format!(
-            "<origin xyz=\"{}\" rpy=\"{}\"/>",
-            v3([t.x, t.y, t.z]),
-            v3(rpy_robust(&p.rotation))
-        )
-    };
-    let mut s = format!(
-        "<?xml version=\"1.0\"?>\n<robot name=\"{}\">\n",
-        robot.name()
-    );
-    for l in robot.links() {
-        let _ = writeln!(s, "  <link name=\"{}\"/>", l.name);
-    }
-    for j in robot.joints() {
-        let (t, axis) = match &j.kind {
-            JointKind::Revolute { axis } if j.limits[0].lower.is_finite() => {
-                ("revolute", Some(axis))
-            }
-            JointKind::Revolute { axis } => ("continuous", Some(axis)),
-            JointKind::Prismatic { axis } => ("prismatic", Some(axis)),
-            JointKind::Fixed => ("fixed", None),
-            JointKind::Floating => ("floating", None),
-            _ => ("fixed", None),
-        };
-        let _ = writeln!(s, "  <joint name=\"{}\" type=\"{t}\">", j.name);
-        let _ = writeln!(
-            s,
-            "    <parent link=\"{}\"/>\n    <child link=\"{}\"/>",
-            robot.links()[j.parent].name,
-            robot.links()[j.child].name
-        );
-        let _ = writeln!(s, "    {}", origin(&j.origin));
-        if let Some(a) = axis {
-            let _ = writeln!(s, "    <axis xyz=\"{}\"/>", v3([a.x, a.y, a.z]));
-            let l = &j.limits[0];
-            let (lo, hi) = if l.lower.is_finite() {
-                (l.lower, l.upper)
-            } else {
-                (-1e3, 1e3)
-            };
-            let vel = if l.velocity.is_finite() {
-                l.velocity
-            } else {
-                1.0
-            };
-            let _ = writeln!(
-                s,
-                "    <limit lower=\"{lo:?}\" upper=\"{hi:?}\" effort=\"0\" velocity=\"{vel:?}\"/>"
-            );
-        }
-        s.push_str("  </joint>\n");
-    }
-    for e in robot.effectors() {
-        let _ = writeln!(s, "  <link name=\"{}_grip\"/>", e.name);
-        let _ = writeln!(s, "  <joint name=\"{}_grip_joint\" type=\"fixed\">", e.name);
-        let _ = writeln!(
-            s,
-            "    <parent link=\"{}\"/>\n    <child link=\"{}_grip\"/>",
-            robot.links()[e.link].name,
-            e.name
-        );
-        let _ = writeln!(s, "    {}\n  </joint>", origin(&e.grip));
-    }
-    s.push_str("</robot>\n");
-    s
-}
-
-/// Roll-pitch-yaw (URDF convention R = Rz(yaw) Ry(pitch) Rx(roll)) that round-trips to
-/// ~1e-16 even near pitch = +-pi/2: pitch by atan2 (asin loses half the digits there),
-/// yaw from the first column, then roll from what is left, an exact rotation about x.
-fn rpy_robust(r: &nalgebra::Rotation3<f64>) -> [f64; 3] {
-    use nalgebra::{Rotation3, Vector3};
-    let m = r.matrix();
-    let pitch = (-m[(2, 0)]).atan2(m[(0, 0)].hypot(m[(1, 0)]));
-    let yaw = if m[(0, 0)].hypot(m[(1, 0)]) > 0.0 {
-        m[(1, 0)].atan2(m[(0, 0)])
-    } else {
-        0.0
-    };
-    let zy = Rotation3::from_axis_angle(&Vector3::z_axis(), yaw)
-        * Rotation3::from_axis_angle(&Vector3::y_axis(), pitch);
-    let x = zy.inverse() * r;
-    let roll = x[(2, 1)].atan2(x[(1, 1)]);
-    [roll, pitch, yaw]
-}
-// END TEMPORARY

@@ -17,7 +17,8 @@ BUILTINS=(arm7 climber mobile mixed)
 builtins_only=0
 if [[ "${1:-}" == "--builtins-only" ]]; then builtins_only=1; fi
 
-if ! python3 -c "import pinocchio, numpy" 2>/dev/null; then
+PY="${PYTHON:-python3}"
+if ! "$PY" -c "import pinocchio, numpy" 2>/dev/null; then
     echo "reference/check_all.sh: Python packages missing; run: pip install -r reference/requirements.txt" >&2
     exit 2
 fi
@@ -48,6 +49,6 @@ for b in "${BUILTINS[@]}"; do
 done
 
 # The comparison must be able to fail: a corrupted Jacobian column has to be caught.
-python3 reference/pinocchio_check.py --negative-control --min-samples "$N" "${dirs[-1]}" > "$out/negative.log" || {
+"$PY" reference/pinocchio_check.py --negative-control --min-samples "$N" "${dirs[-1]}" > "$out/negative.log" || {
     cat "$out/negative.log"; echo "negative control failed" >&2; exit 1; }
-python3 reference/pinocchio_check.py --min-samples "$N" "${dirs[@]}"
+"$PY" reference/pinocchio_check.py --min-samples "$N" "${dirs[@]}"

@@ -6,7 +6,9 @@
 //! frame, both expressed in world axes; column `k` is the effect of tangent coordinate `k`
 //! (for a floating joint: body-frame linear then angular velocity).
 
-use nalgebra::{DMatrix, Matrix3, Point3, Quaternion, Rotation3, Translation3, UnitQuaternion, Vector3};
+use nalgebra::{
+    DMatrix, Matrix3, Point3, Quaternion, Rotation3, Translation3, UnitQuaternion, Vector3,
+};
 use thiserror::Error;
 
 use crate::configuration::{check_len, ConfigurationError};
@@ -66,9 +68,17 @@ fn child_pose(parent: &Pose, j: &Joint, q: &[f64]) -> Pose {
         }
         JointKind::Fixed => (pr * or, pr * ot + pt),
         JointKind::Floating => {
-            let rq = UnitQuaternion::new_normalize(Quaternion::new(q[i + 6], q[i + 3], q[i + 4], q[i + 5]));
+            let rq = UnitQuaternion::new_normalize(Quaternion::new(
+                q[i + 6],
+                q[i + 3],
+                q[i + 4],
+                q[i + 5],
+            ));
             let w = pr * or;
-            (w * rq.to_rotation_matrix().matrix(), pr * ot + pt + w * Vector3::new(q[i], q[i + 1], q[i + 2]))
+            (
+                w * rq.to_rotation_matrix().matrix(),
+                pr * ot + pt + w * Vector3::new(q[i], q[i + 1], q[i + 2]),
+            )
         }
     };
     Pose::from_parts(Translation3::from(t), Rotation3::from_matrix_unchecked(r))
@@ -77,10 +87,17 @@ fn child_pose(parent: &Pose, j: &Joint, q: &[f64]) -> Pose {
 /// World pose of every link at `q`, in one pass over the tree (root at the world origin).
 /// `poses` must have one entry per link. `q` is not checked for unit quaternions (they are
 /// normalized on the fly); use [`Robot::check_configuration`] on untrusted input.
-pub fn forward_kinematics(robot: &Robot, q: &[f64], poses: &mut [Pose]) -> Result<(), KinematicsError> {
+pub fn forward_kinematics(
+    robot: &Robot,
+    q: &[f64],
+    poses: &mut [Pose],
+) -> Result<(), KinematicsError> {
     check_len("configuration", q.len(), robot.nq())?;
     if poses.len() != robot.links().len() {
-        return Err(KinematicsError::PoseBuffer { got: poses.len(), expected: robot.links().len() });
+        return Err(KinematicsError::PoseBuffer {
+            got: poses.len(),
+            expected: robot.links().len(),
+        });
     }
     poses[0] = Pose::identity();
     for j in robot.joints() {
@@ -121,7 +138,14 @@ fn check_jacobian(
 /// each joint's column(s) for the point `p` (world) into `jac`; `angular` also writes rows
 /// 3..6.
 #[inline]
-fn fill_columns(robot: &Robot, poses: &[Pose], link: LinkId, p: &Point3<f64>, jac: &mut DMatrix<f64>, angular: bool) {
+fn fill_columns(
+    robot: &Robot,
+    poses: &[Pose],
+    link: LinkId,
+    p: &Point3<f64>,
+    jac: &mut DMatrix<f64>,
+    angular: bool,
+) {
     jac.fill(0.0);
     let rows = jac.nrows();
     let data = jac.as_mut_slice(); // column-major: column c is data[c * rows..][..rows]
@@ -143,7 +167,9 @@ fn fill_columns(robot: &Robot, poses: &[Pose], link: LinkId, p: &Point3<f64>, ja
                 let w = r * axis.into_inner();
                 put(j.v_index, &w.cross(&arm), &w);
             }
-            JointKind::Prismatic { axis } => put(j.v_index, &(r * axis.into_inner()), &Vector3::zeros()),
+            JointKind::Prismatic { axis } => {
+                put(j.v_index, &(r * axis.into_inner()), &Vector3::zeros())
+            }
             JointKind::Fixed => {}
             JointKind::Floating => {
                 for k in 0..3 {

@@ -147,7 +147,9 @@ const HOLD_PASSES: usize = 4;
 /// the projection time (measured with callgrind, see docs/performance.md).
 fn damped_step(buf: &mut ProjectionBuffer, lambda: f64) -> bool {
     let m = buf.stack.jacobian.nrows();
-    let Some(mut a) = buf.normal.take() else { return false };
+    let Some(mut a) = buf.normal.take() else {
+        return false;
+    };
     a.fill(0.0);
     {
         let jd = buf.stack.jacobian.as_slice();
@@ -182,7 +184,11 @@ fn damped_step(buf: &mut ProjectionBuffer, lambda: f64) -> bool {
             let jd = buf.stack.jacobian.as_slice();
             let y = buf.y.as_slice();
             for (c, (dq, held)) in buf.dq.iter_mut().zip(&buf.held).enumerate() {
-                *dq = if *held { 0.0 } else { jd[c * m..c * m + m].iter().zip(y).map(|(j, y)| j * y).sum() };
+                *dq = if *held {
+                    0.0
+                } else {
+                    jd[c * m..c * m + m].iter().zip(y).map(|(j, y)| j * y).sum()
+                };
             }
             true
         }
