@@ -1,9 +1,7 @@
 //! Full-robot collision checks: `in_collision` and `clearance` (link poses given, FK not
-//! timed) of a seven-joint arm with capsule links among ten obstacles of every type, at a
-//! free configuration and at a near-contact one (a few millimetres from the first contact).
-//!
-//! Uses the shipped robot files `robots/sevenfold.toml` and `robots/brachia.toml` when they
-//! load; otherwise (robot files or loader not yet available) an arm built in code.
+//! timed) of the shipped robots `robots/sevenfold.toml` and `robots/brachia.toml` among ten
+//! obstacles of every type, at a free configuration and at a near-contact one (a few
+//! millimetres from the first contact), both found by seeded sampling.
 //!
 //! Run: `cargo bench --bench collision -- --warm-up-time 1 --measurement-time 3`
 
@@ -15,7 +13,7 @@ use std::sync::Arc;
 use clamber::collision::{CollisionModel, CollisionScratch, Obstacle};
 use clamber::kinematics::forward_kinematics;
 use clamber::math::{pose_from_xyz_rpy, Pose};
-use clamber::model::{Geometry, JointSpec, JointType, Limits, LinkSpec, Robot, RobotSpec, Shape};
+use clamber::model::{Geometry, Robot, Shape};
 use criterion::{criterion_group, criterion_main, Criterion};
 use nalgebra::{Point3, Vector3};
 use rand::SeedableRng;
@@ -30,74 +28,6 @@ fn shape(geometry: Geometry, origin: Pose) -> Shape {
 }
 
 /// A seven-joint arm (z-y-z shoulder, y elbow, z-y-z wrist), one capsule per moving link.
-fn arm_in_code() -> Robot {
-    let axes = [
-        [0.0, 0.0, 1.0],
-        [0.0, 1.0, 0.0],
-        [0.0, 0.0, 1.0],
-        [0.0, 1.0, 0.0],
-        [0.0, 0.0, 1.0],
-        [0.0, 1.0, 0.0],
-        [0.0, 0.0, 1.0],
-    ];
-    let lengths = [0.12, 0.1, 0.3, 0.05, 0.28, 0.05, 0.1];
-    let radii = [0.07, 0.07, 0.06, 0.06, 0.05, 0.05, 0.04];
-    let mut links = vec![LinkSpec {
-        name: "pedestal".into(),
-        shapes: vec![shape(
-            Geometry::Cylinder {
-                radius: 0.1,
-                length: 0.12,
-            },
-            pose_from_xyz_rpy([0.0, 0.0, 0.06], [0.0; 3]),
-        )],
-    }];
-    let mut joints = Vec::new();
-    let mut parent_len = 0.12;
-    for k in 0..7 {
-        let name = format!("seg{}", k + 1);
-        links.push(LinkSpec {
-            name: name.clone(),
-            shapes: vec![shape(
-                Geometry::Capsule {
-                    radius: radii[k],
-                    length: lengths[k],
-                },
-                pose_from_xyz_rpy([0.0, 0.0, lengths[k] / 2.0], [0.0; 3]),
-            )],
-        });
-        joints.push(JointSpec {
-            name: format!("j{}", k + 1),
-            joint_type: JointType::Revolute,
-            parent: links[k].name.clone(),
-            child: name,
-            origin: pose_from_xyz_rpy([0.0, 0.0, parent_len], [0.0; 3]),
-            axis: Vector3::from(axes[k]),
-            limits: vec![Limits {
-                lower: -2.8,
-                upper: 2.8,
-                velocity: 2.0,
-                acceleration: 6.0,
-            }],
-            passive: false,
-        });
-        parent_len = lengths[k];
-    }
-    RobotSpec {
-        name: "bench-arm".into(),
-        links,
-        joints,
-        // Links two apart across a short link always overlap at the joint: ignore them,
-        // as a robot file would.
-        ignored_pairs: [(1, 3), (3, 5), (5, 7)]
-            .iter()
-            .map(|(a, b)| (format!("seg{a}"), format!("seg{b}")))
-            .collect(),
-        ..Default::default()
-    }
-    .build()
-    .expect("bench arm")
-}
 
 fn cube(h: f64) -> Vec<Point3<f64>> {
     let mut v = Vec::new();
@@ -279,20 +209,10 @@ fn bench_robot(c: &mut Criterion, label: &str, robot: &Robot) {
 
 fn collision(c: &mut Criterion) {
     let root = Path::new(env!("CARGO_MANIFEST_DIR")).join("robots");
-    let mut loaded = false;
     for name in ["sevenfold", "brachia"] {
-        match clamber::robot_file::load_robot(&root.join(format!("{name}.toml"))) {
-            Ok(robot) => {
-                bench_robot(c, name, &robot);
-                loaded = true;
-            }
-            Err(e) => {
-                eprintln!("robots/{name}.toml not used ({e}); falling back to the in-code arm")
-            }
-        }
-    }
-    if !loaded {
-        bench_robot(c, "arm_in_code", &arm_in_code());
+        let robot = clamber::robot_file::load_robot(&root.join(format!("{name}.toml")))
+            .unwrap_or_else(|e| panic!("{e}"));
+        bench_robot(c, name, &robot);
     }
 }
 

@@ -31,12 +31,12 @@ fn main() -> anyhow::Result<()> {
         robot.nv(),
         settings.tolerance
     );
-    println!("| perturbation (rad, per joint) | success | mean iterations | median time (us) | p95 time (us) |");
-    println!("|---|---|---|---|---|");
+    println!("| perturbation (rad, per joint) | success | mean iterations | mean evaluations | median time (us) | p95 time (us) |");
+    println!("|---|---|---|---|---|---|");
     for delta in [0.05, 0.2, 0.5] {
         let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(2026);
         let mut times = Vec::with_capacity(trials);
-        let (mut ok, mut iters) = (0usize, 0usize);
+        let (mut ok, mut iters, mut evals) = (0usize, 0usize, 0usize);
         let mut poses = vec![Pose::identity(); robot.links().len()];
         let e = robot
             .effector(effector)
@@ -66,6 +66,7 @@ fn main() -> anyhow::Result<()> {
             let t = Instant::now();
             let rep = project(&robot, &stack, &settings, &mut q, &mut buf)?;
             times.push(t.elapsed().as_secs_f64() * 1e6);
+            evals += rep.evaluations;
             if rep.converged() {
                 ok += 1;
                 iters += rep.iterations;
@@ -73,9 +74,10 @@ fn main() -> anyhow::Result<()> {
         }
         times.sort_by(|a, b| a.total_cmp(b));
         println!(
-            "| {delta} | {:.2}% | {:.2} | {:.2} | {:.2} |",
+            "| {delta} | {:.2}% | {:.2} | {:.2} | {:.2} | {:.2} |",
             100.0 * ok as f64 / trials as f64,
             iters as f64 / ok.max(1) as f64,
+            evals as f64 / trials as f64,
             times[trials / 2],
             times[trials * 95 / 100]
         );

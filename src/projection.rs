@@ -85,6 +85,8 @@ pub struct ProjectionReport {
     pub iterations: usize,
     /// Residual norm at the returned configuration.
     pub residual: f64,
+    /// Evaluations of the constraint stack (with Jacobian) spent, rejected steps included.
+    pub evaluations: usize,
 }
 
 impl ProjectionReport {
@@ -250,6 +252,7 @@ pub fn project(
     }
     robot.clamp_to_limits(q);
     let mut err = stack.evaluate(robot, q, &mut buf.stack, true)?;
+    let mut evaluations = 1;
     let mut lambda = LAMBDA_START;
     let mut iterations = 0;
     loop {
@@ -258,6 +261,7 @@ pub fn project(
                 stop: StopReason::Converged,
                 iterations,
                 residual: err,
+                evaluations,
             });
         }
         if iterations >= settings.max_iterations {
@@ -265,6 +269,7 @@ pub fn project(
                 stop: StopReason::IterationCap,
                 iterations,
                 residual: err,
+                evaluations,
             });
         }
         iterations += 1;
@@ -285,6 +290,7 @@ pub fn project(
                         stop: StopReason::Singular,
                         iterations,
                         residual: err,
+                        evaluations,
                     });
                 }
                 lambda *= 10.0;
@@ -297,6 +303,7 @@ pub fn project(
             robot.integrate(q, buf.dq.as_slice(), &mut buf.q_try)?;
             let clamped = robot.clamp_to_limits(&mut buf.q_try);
             let trial = stack.evaluate(robot, &buf.q_try, &mut buf.stack, true)?;
+            evaluations += 1;
             if trial < err {
                 q.copy_from_slice(&buf.q_try);
                 err = trial;
@@ -305,6 +312,7 @@ pub fn project(
             }
             // Rejected: restore the Jacobian at q and damp harder.
             stack.evaluate(robot, q, &mut buf.stack, true)?;
+            evaluations += 1;
             if lambda >= LAMBDA_MAX {
                 let stop = if clamped || any_held {
                     StopReason::BlockedByLimits
@@ -315,6 +323,7 @@ pub fn project(
                     stop,
                     iterations,
                     residual: err,
+                    evaluations,
                 });
             }
             lambda *= 10.0;
