@@ -27,7 +27,6 @@ fn shape(geometry: Geometry, origin: Pose) -> Shape {
     }
 }
 
-/// A seven-joint arm (z-y-z shoulder, y elbow, z-y-z wrist), one capsule per moving link.
 
 fn cube(h: f64) -> Vec<Point3<f64>> {
     let mut v = Vec::new();
