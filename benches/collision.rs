@@ -27,7 +27,6 @@ fn shape(geometry: Geometry, origin: Pose) -> Shape {
     }
 }
 
-
 fn cube(h: f64) -> Vec<Point3<f64>> {
     let mut v = Vec::new();
     for i in 0..8 {

@@ -74,43 +74,47 @@ impl RobotFileError {
     }
 }
 
-/// Read a robot description from a `.toml` or `.urdf` file without building it.
-pub fn load_robot_spec(path: &Path) -> Result<RobotSpec, RobotFileError> {
+/// The formats a robot file can be in, by file extension.
+enum Format {
+    Toml,
+    Urdf,
+}
+
+/// Read a robot file's text and tell its format from the extension.
+fn read(path: &Path) -> Result<(String, Format), RobotFileError> {
+    let ext = path
+        .extension()
+        .and_then(|e| e.to_str())
+        .map(|e| e.to_ascii_lowercase());
+    let format = match ext.as_deref() {
+        Some("toml") => Format::Toml,
+        Some("urdf") | Some("xml") => Format::Urdf,
+        _ => {
+            return Err(RobotFileError::UnknownFormat {
+                path: path.to_path_buf(),
+            })
+        }
+    };
     let text = std::fs::read_to_string(path).map_err(|source| RobotFileError::Io {
         path: path.to_path_buf(),
         source,
     })?;
-    match path
-        .extension()
-        .and_then(|e| e.to_str())
-        .map(|e| e.to_ascii_lowercase())
-        .as_deref()
-    {
-        Some("toml") => toml_format::parse(&text, path).map(|(spec, _)| spec),
-        Some("urdf") | Some("xml") => urdf::parse(&text, path).map(|(spec, _)| spec),
-        _ => Err(RobotFileError::UnknownFormat {
-            path: path.to_path_buf(),
-        }),
+    Ok((text, format))
+}
+
+/// Read a robot description from a `.toml` or `.urdf` file without building it.
+pub fn load_robot_spec(path: &Path) -> Result<RobotSpec, RobotFileError> {
+    match read(path)? {
+        (text, Format::Toml) => toml_format::parse(&text, path).map(|(spec, _)| spec),
+        (text, Format::Urdf) => urdf::parse(&text, path).map(|(spec, _)| spec),
     }
 }
 
 /// Load and build a robot from a `.toml` or `.urdf` file.
 pub fn load_robot(path: &Path) -> Result<Robot, RobotFileError> {
-    let text = std::fs::read_to_string(path).map_err(|source| RobotFileError::Io {
-        path: path.to_path_buf(),
-        source,
-    })?;
-    match path
-        .extension()
-        .and_then(|e| e.to_str())
-        .map(|e| e.to_ascii_lowercase())
-        .as_deref()
-    {
-        Some("toml") => toml_format::load_str(&text, path),
-        Some("urdf") | Some("xml") => urdf::load_str(&text, path),
-        _ => Err(RobotFileError::UnknownFormat {
-            path: path.to_path_buf(),
-        }),
+    match read(path)? {
+        (text, Format::Toml) => toml_format::load_str(&text, path),
+        (text, Format::Urdf) => urdf::load_str(&text, path),
     }
 }
 
