@@ -10,10 +10,12 @@
 pub mod collision;
 pub mod configuration;
 pub mod constraint;
+pub mod cspace;
 pub mod grip_position;
 pub mod kinematics;
 pub mod math;
 pub mod model;
+pub mod planner;
 pub mod projection;
 pub mod report;
 pub mod robot_file;

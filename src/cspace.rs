@@ -1,0 +1,293 @@
+//! C-spaces: what a sampling-based planner needs to know about the space it searches —
+//! sampling, distance, a local planner (extend) and validity. Planners are written once
+//! against [`ConfigSpace`]; [`FreeSpace`] is the joint box, [`ConstrainedSpace`] wraps
+//! projection and the manifold walk so the same planner plans under constraints unchanged.
+
+use rand::Rng;
+use thiserror::Error;
+
+use crate::collision::{CollisionError, CollisionModel, CollisionScratch};
+use crate::constraint::{ConstraintError, ConstraintStack};
+use crate::kinematics::forward_kinematics;
+use crate::math::Pose;
+use crate::model::Robot;
+use crate::projection::{project, ProjectionBuffer};
+use crate::settings::{positive, SettingsError};
+use crate::walk::{walk, WalkSettings};
+
+/// A C-space query failed for a reason other than an invalid configuration.
+#[derive(Debug, Error, Clone, PartialEq)]
+#[non_exhaustive]
+pub enum CSpaceError {
+    #[error(transparent)]
+    Constraint(#[from] ConstraintError),
+    #[error(transparent)]
+    Collision(#[from] CollisionError),
+    #[error(transparent)]
+    Settings(#[from] SettingsError),
+}
+
+/// Counts of the work a C-space did (for planner statistics).
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
+pub struct CSpaceStats {
+    pub samples: usize,
+    pub projections: usize,
+    pub collision_checks: usize,
+}
+
+/// The result of extending from one configuration toward another: the valid configurations
+/// passed through (not including the start), and whether the target was reached.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Extension {
+    pub path: Vec<Vec<f64>>,
+    pub reached: bool,
+}
+
+/// The space a planner samples.
+pub trait ConfigSpace {
+    fn robot(&self) -> &Robot;
+    /// A valid random configuration, or `None` if this attempt failed (projection did not
+    /// converge, or the sample collides).
+    fn sample<R: Rng + ?Sized>(&mut self, rng: &mut R) -> Result<Option<Vec<f64>>, CSpaceError>;
+    fn distance(&self, a: &[f64], b: &[f64]) -> f64;
+    /// Move from `from` toward `to` by at most `max_distance`, through valid configurations.
+    fn extend(
+        &mut self,
+        from: &[f64],
+        to: &[f64],
+        max_distance: f64,
+    ) -> Result<Extension, CSpaceError>;
+    /// True if `q` is within limits, on the manifold (if constrained) and collision-free.
+    fn is_valid(&mut self, q: &[f64]) -> Result<bool, CSpaceError>;
+    fn stats(&self) -> CSpaceStats;
+}
+
+/// Collision and limit checks shared by both spaces.
+struct Checker<'a> {
+    robot: &'a Robot,
+    collision: Option<&'a CollisionModel>,
+    poses: Vec<Pose>,
+    scratch: CollisionScratch,
+    stats: CSpaceStats,
+}
+
+impl<'a> Checker<'a> {
+    fn new(robot: &'a Robot, collision: Option<&'a CollisionModel>) -> Self {
+        Checker {
+            robot,
+            collision,
+            poses: vec![Pose::identity(); robot.links().len()],
+            scratch: CollisionScratch::new(),
+            stats: CSpaceStats::default(),
+        }
+    }
+
+    /// Within limits and collision-free.
+    fn free(&mut self, q: &[f64]) -> Result<bool, CSpaceError> {
+        if !self.robot.within_limits(q, 0.0) {
+            return Ok(false);
+        }
+        let Some(model) = self.collision else {
+            return Ok(true);
+        };
+        forward_kinematics(self.robot, q, &mut self.poses).map_err(ConstraintError::from)?;
+        self.stats.collision_checks += 1;
+        Ok(!model.in_collision(&self.poses, &mut self.scratch)?)
+    }
+
+    /// Every point of the straight segment a -> b at spacing <= `resolution` (excluding a) free.
+    fn segment_free(&mut self, a: &[f64], b: &[f64], resolution: f64) -> Result<bool, CSpaceError> {
+        let d = self.robot.distance(a, b).map_err(ConstraintError::from)?;
+        let steps = ((d / resolution).ceil() as usize).max(1);
+        let mut q = vec![0.0; self.robot.nq()];
+        for k in 1..=steps {
+            self.robot
+                .interpolate(a, b, k as f64 / steps as f64, &mut q)
+                .map_err(ConstraintError::from)?;
+            if !self.free(&q)? {
+                return Ok(false);
+            }
+        }
+        Ok(true)
+    }
+}
+
+/// The joint box with collisions: straight-line motions checked at `resolution`.
+pub struct FreeSpace<'a> {
+    checker: Checker<'a>,
+    resolution: f64,
+}
+
+impl<'a> FreeSpace<'a> {
+    pub fn new(
+        robot: &'a Robot,
+        collision: Option<&'a CollisionModel>,
+        resolution: f64,
+    ) -> Result<Self, CSpaceError> {
+        Ok(FreeSpace {
+            checker: Checker::new(robot, collision),
+            resolution: positive("resolution", resolution)?,
+        })
+    }
+}
+
+impl ConfigSpace for FreeSpace<'_> {
+    fn robot(&self) -> &Robot {
+        self.checker.robot
+    }
+    fn sample<R: Rng + ?Sized>(&mut self, rng: &mut R) -> Result<Option<Vec<f64>>, CSpaceError> {
+        self.checker.stats.samples += 1;
+        let q = self.checker.robot.random_configuration(rng);
+        Ok(if self.checker.free(&q)? {
+            Some(q)
+        } else {
+            None
+        })
+    }
+    fn distance(&self, a: &[f64], b: &[f64]) -> f64 {
+        self.checker.robot.distance(a, b).unwrap_or(f64::INFINITY)
+    }
+    fn extend(
+        &mut self,
+        from: &[f64],
+        to: &[f64],
+        max_distance: f64,
+    ) -> Result<Extension, CSpaceError> {
+        let robot = self.checker.robot;
+        let d = self.distance(from, to);
+        let reached = d <= max_distance;
+        let mut target = to.to_vec();
+        if !reached {
+            robot
+                .interpolate(from, to, max_distance / d, &mut target)
+                .map_err(ConstraintError::from)?;
+        }
+        if self.checker.segment_free(from, &target, self.resolution)? {
+            Ok(Extension {
+                path: vec![target],
+                reached,
+            })
+        } else {
+            Ok(Extension {
+                path: Vec::new(),
+                reached: false,
+            })
+        }
+    }
+    fn is_valid(&mut self, q: &[f64]) -> Result<bool, CSpaceError> {
+        self.checker.free(q)
+    }
+    fn stats(&self) -> CSpaceStats {
+        self.checker.stats
+    }
+}
+
+/// A C-space on the manifold of a constraint stack: samples are projected, motions are
+/// manifold walks (each walk point, and the straight segments between them at `resolution`,
+/// collision-checked).
+pub struct ConstrainedSpace<'a> {
+    checker: Checker<'a>,
+    stack: &'a ConstraintStack,
+    walk: WalkSettings,
+    resolution: f64,
+    buffer: ProjectionBuffer,
+}
+
+impl<'a> ConstrainedSpace<'a> {
+    pub fn new(
+        robot: &'a Robot,
+        stack: &'a ConstraintStack,
+        collision: Option<&'a CollisionModel>,
+        walk: WalkSettings,
+        resolution: f64,
+    ) -> Result<Self, CSpaceError> {
+        walk.validate()?;
+        Ok(ConstrainedSpace {
+            checker: Checker::new(robot, collision),
+            stack,
+            walk,
+            resolution: positive("resolution", resolution)?,
+            buffer: ProjectionBuffer::new(robot, stack),
+        })
+    }
+    pub fn stack(&self) -> &ConstraintStack {
+        self.stack
+    }
+    pub fn walk_settings(&self) -> &WalkSettings {
+        &self.walk
+    }
+}
+
+impl ConfigSpace for ConstrainedSpace<'_> {
+    fn robot(&self) -> &Robot {
+        self.checker.robot
+    }
+    fn sample<R: Rng + ?Sized>(&mut self, rng: &mut R) -> Result<Option<Vec<f64>>, CSpaceError> {
+        self.checker.stats.samples += 1;
+        let mut q = self.checker.robot.random_configuration(rng);
+        self.checker.stats.projections += 1;
+        let rep = project(
+            self.checker.robot,
+            self.stack,
+            &self.walk.projection,
+            &mut q,
+            &mut self.buffer,
+        )?;
+        Ok(if rep.converged() && self.checker.free(&q)? {
+            Some(q)
+        } else {
+            None
+        })
+    }
+    fn distance(&self, a: &[f64], b: &[f64]) -> f64 {
+        self.checker.robot.distance(a, b).unwrap_or(f64::INFINITY)
+    }
+    fn extend(
+        &mut self,
+        from: &[f64],
+        to: &[f64],
+        max_distance: f64,
+    ) -> Result<Extension, CSpaceError> {
+        let robot = self.checker.robot;
+        let d = self.distance(from, to);
+        let mut target = to.to_vec();
+        if d > max_distance {
+            robot
+                .interpolate(from, to, max_distance / d, &mut target)
+                .map_err(ConstraintError::from)?;
+        }
+        let w = walk(
+            robot,
+            self.stack,
+            from,
+            &target,
+            &self.walk,
+            &mut self.buffer,
+        )?;
+        self.checker.stats.projections += w.projections;
+        // Keep the walk up to its first invalid point.
+        let mut path = Vec::with_capacity(w.path.len());
+        let mut prev = from.to_vec();
+        for q in w.path.into_iter().skip(1) {
+            if !self.checker.segment_free(&prev, &q, self.resolution)? {
+                return Ok(Extension {
+                    path,
+                    reached: false,
+                });
+            }
+            prev.clone_from(&q);
+            path.push(q);
+        }
+        let reached = d <= max_distance && path.last().is_some_and(|q| self.distance(q, to) == 0.0);
+        Ok(Extension { path, reached })
+    }
+    fn is_valid(&mut self, q: &[f64]) -> Result<bool, CSpaceError> {
+        let r = self
+            .stack
+            .evaluate(self.checker.robot, q, &mut self.buffer.stack, false)?;
+        Ok(r <= self.walk.projection.tolerance && self.checker.free(q)?)
+    }
+    fn stats(&self) -> CSpaceStats {
+        self.checker.stats
+    }
+}
