@@ -19,6 +19,7 @@ pub mod report;
 pub mod robot_file;
 pub mod sampling;
 pub mod settings;
+pub mod timing;
 pub mod walk;
 
 pub use math::Pose;
