@@ -11,7 +11,11 @@
 //! - velocity: `|q'_j(s_i)| sdot <= v_j`, i.e. `x <= v_j^2 / q'_j^2`;
 //! - acceleration: `|q'_j(s_i) u + q''_j(s_i) x| <= a_j`;
 //!
-//! and at `s_N` the velocity constraint. A backward pass computes the controllable sets
+//! and at `s_N` the velocity constraint. With [`Discretization::Interpolation`] the
+//! acceleration rows of `s_{i+1}` are added to stage `i` as well, written with the stage's
+//! control and `x_{i+1} = x_i + 2 ds u_i`, so the limits hold at both ends of every interval
+//! (the paper's first-order interpolation scheme); this matters where `q'` is near zero, where
+//! collocation lets the path speed jump between grid points. A backward pass computes the controllable sets
 //! `K_i` (intervals of `x` from which the end speed can be reached); a forward pass picks, at
 //! each stage, the greatest `u` that keeps the next state in `K_{i+1}`. Time between grid
 //! points follows the constant-acceleration rule `dt_i = 2 (s_{i+1} - s_i) / (sdot_i +
@@ -34,6 +38,17 @@ pub struct PathSamples {
     pub s: Vec<f64>,
     pub dq: Vec<Vec<f64>>,
     pub ddq: Vec<Vec<f64>>,
+}
+
+/// Where the acceleration constraints of a stage are imposed.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
+#[non_exhaustive]
+pub enum Discretization {
+    /// At the stage's own grid point `s_i` only.
+    #[default]
+    Collocation,
+    /// At `s_i` and at `s_{i+1}` (with the stage's constant path acceleration).
+    Interpolation,
 }
 
 /// A time parameterization of a path on its grid.
@@ -142,9 +157,20 @@ impl Half {
 }
 
 /// The constraints of stage `i` that do not involve the next set: `x >= 0`, the velocity
-/// bound and the acceleration rows. Rows with an infinite limit are vacuous and left out.
-fn stage_rows(dq: &[f64], ddq: &[f64], amax: &[f64], xv: f64, rows: &mut Vec<Half>) {
+/// bound and the acceleration rows (and, for interpolation, the acceleration rows of the next
+/// grid point). Rows with an infinite limit are vacuous and left out.
+fn stage_rows(
+    samples: &PathSamples,
+    i: usize,
+    amax: &[f64],
+    xv: f64,
+    scheme: Discretization,
+    rows: &mut Vec<Half>,
+) {
     rows.clear();
+    let (Some(dq), Some(ddq)) = (samples.dq.get(i), samples.ddq.get(i)) else {
+        return;
+    };
     rows.push(Half {
         cu: 0.0,
         cx: -1.0,
@@ -174,6 +200,34 @@ fn stage_rows(dq: &[f64], ddq: &[f64], amax: &[f64], xv: f64, rows: &mut Vec<Hal
         if let (Some(up), Some(down)) = (up.normalized(), down.normalized()) {
             rows.push(up);
             rows.push(down);
+        }
+    }
+    if scheme == Discretization::Interpolation {
+        let (Some(dq1), Some(ddq1), Some(s0), Some(s1)) = (
+            samples.dq.get(i + 1),
+            samples.ddq.get(i + 1),
+            samples.s.get(i),
+            samples.s.get(i + 1),
+        ) else {
+            return;
+        };
+        // q'(s1) u + q''(s1) (x + 2 ds u) = (q'(s1) + 2 ds q''(s1)) u + q''(s1) x.
+        let two_ds = 2.0 * (s1 - s0);
+        for ((&d, &dd), &a) in dq1.iter().zip(ddq1).zip(amax) {
+            if !a.is_finite() {
+                continue;
+            }
+            let cu = d + two_ds * dd;
+            let up = Half { cu, cx: dd, b: a };
+            let down = Half {
+                cu: -cu,
+                cx: -dd,
+                b: a,
+            };
+            if let (Some(up), Some(down)) = (up.normalized(), down.normalized()) {
+                rows.push(up);
+                rows.push(down);
+            }
         }
     }
 }
@@ -339,13 +393,33 @@ fn check_inputs(
 /// Time-optimal parameterization of the sampled path with per-coordinate velocity limits
 /// `vmax` and acceleration limits `amax` (length nv, > 0, may be infinite), from path speed
 /// `start_sd` to `end_sd` (0 for rest). Limits hold at the grid points (collocation); between
-/// them the path acceleration is constant.
+/// them the path acceleration is constant. Same as [`parameterize_with`] with
+/// [`Discretization::Collocation`].
 pub fn parameterize(
     samples: &PathSamples,
     vmax: &[f64],
     amax: &[f64],
     start_sd: f64,
     end_sd: f64,
+) -> Result<Profile, TimingError> {
+    parameterize_with(
+        samples,
+        vmax,
+        amax,
+        start_sd,
+        end_sd,
+        Discretization::Collocation,
+    )
+}
+
+/// [`parameterize`] with a choice of where the acceleration limits are imposed.
+pub fn parameterize_with(
+    samples: &PathSamples,
+    vmax: &[f64],
+    amax: &[f64],
+    start_sd: f64,
+    end_sd: f64,
+    scheme: Discretization,
 ) -> Result<Profile, TimingError> {
     check_inputs(samples, vmax, amax, start_sd, end_sd)?;
     let s = &samples.s;
@@ -361,7 +435,7 @@ pub fn parameterize(
     k[n] = (x_end, x_end);
     let mut rows = Vec::with_capacity(4 + 2 * vmax.len());
     for i in (0..n).rev() {
-        stage_rows(&samples.dq[i], &samples.ddq[i], amax, xv[i], &mut rows);
+        stage_rows(samples, i, amax, xv[i], scheme, &mut rows);
         next_set_rows(s[i + 1] - s[i], k[i + 1], &mut rows);
         k[i] = project_x(&rows).ok_or(TimingError::Infeasible { index: i })?;
     }
@@ -376,7 +450,7 @@ pub fn parameterize(
     let mut sdd = vec![0.0; n];
     for i in 0..n {
         let ds = s[i + 1] - s[i];
-        stage_rows(&samples.dq[i], &samples.ddq[i], amax, xv[i], &mut rows);
+        stage_rows(samples, i, amax, xv[i], scheme, &mut rows);
         let u_max = rows
             .iter()
             .filter(|r| r.cu > 0.0)
@@ -537,7 +611,15 @@ pub fn time_polyline(
             for i in 0..=m {
                 segment_derivatives(robot, &dir, s[i], &mut dq[i], &mut ddq[i]);
             }
-            let profile = parameterize(&PathSamples { s, dq, ddq }, &vmax, &amax, 0.0, 0.0)?;
+            // Interpolation: a floating joint's linear tangent turns along the segment.
+            let profile = parameterize_with(
+                &PathSamples { s, dq, ddq },
+                &vmax,
+                &amax,
+                0.0,
+                0.0,
+                Discretization::Interpolation,
+            )?;
             segments.push(TimedSegment {
                 start_time: time,
                 from: a.clone(),
