@@ -374,7 +374,11 @@ fn check_inputs(
         }
     }
     for (what, list) in [("velocity", vmax), ("acceleration", amax)] {
-        if let Some((coordinate, &value)) = list.iter().enumerate().find(|(_, v)| !(**v > 0.0)) {
+        if let Some((coordinate, &value)) = list
+            .iter()
+            .enumerate()
+            .find(|(_, v)| v.is_nan() || **v <= 0.0)
+        {
             return Err(TimingError::BadLimit {
                 what,
                 coordinate,
