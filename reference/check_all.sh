@@ -7,6 +7,7 @@
 #   reference/check_all.sh --builtins-only # while robots/ is not there
 #
 # Env: N (configurations per robot, default 1000), SEED (default 1), CARGO_TARGET_DIR.
+# Also compares path timing with toppra (reference/toppra_check.py).
 # Needs: python3 with `pip install -r reference/requirements.txt`.
 set -euo pipefail
 cd "$(dirname "$0")/.."
@@ -18,7 +19,7 @@ builtins_only=0
 if [[ "${1:-}" == "--builtins-only" ]]; then builtins_only=1; fi
 
 PY="${PYTHON:-python3}"
-if ! "$PY" -c "import pinocchio, numpy" 2>/dev/null; then
+if ! "$PY" -c "import pinocchio, numpy, toppra" 2>/dev/null; then
     echo "reference/check_all.sh: Python packages missing; run: pip install -r reference/requirements.txt" >&2
     exit 2
 fi
@@ -52,3 +53,8 @@ done
 "$PY" reference/pinocchio_check.py --negative-control --min-samples "$N" "${dirs[-1]}" > "$out/negative.log" || {
     cat "$out/negative.log"; echo "negative control failed" >&2; exit 1; }
 "$PY" reference/pinocchio_check.py --min-samples "$N" "${dirs[@]}"
+
+# Time-optimal path timing against toppra (PyPI `toppra`): durations within 1 %, with a
+# negative control (limits scaled by 0.9 on our side must be detected).
+cargo build --quiet --example timing_dump
+"$PY" reference/toppra_check.py --dump "$target/debug/examples/timing_dump"

@@ -21,6 +21,7 @@ pub mod report;
 pub mod robot_file;
 pub mod sampling;
 pub mod settings;
+pub mod timing;
 pub mod verify;
 pub mod walk;
 
