@@ -14,7 +14,11 @@
 //!
 //! `CLAMBER_BENCH_LOOP=1 cargo bench --bench projection` skips criterion and prints the
 //! median and 95th-percentile time of single projections (the same pairs, 20 passes),
-//! like the `k` comparison in `reference/k-compare`.
+//! like the `k` comparison in `reference/k-compare`. For profilers,
+//! `CLAMBER_BENCH_LOOP_PASSES` sets the passes (default 20) and `CLAMBER_BENCH_DELTAS` a
+//! comma-separated subset of the perturbation sizes, e.g.
+//! `CLAMBER_BENCH_LOOP=1 CLAMBER_BENCH_LOOP_PASSES=1 CLAMBER_BENCH_DELTAS=0.05
+//! valgrind --tool=callgrind <bench binary>`.
 
 use std::hint::black_box;
 use std::path::Path;
@@ -89,9 +93,13 @@ fn statistics(robot: &Robot, set: &PairSet, buf: &mut ProjectionBuffer) {
 
 fn loop_mode(robot: &Robot, set: &PairSet, buf: &mut ProjectionBuffer) {
     let settings = ProjectionSettings::default();
+    let passes = std::env::var("CLAMBER_BENCH_LOOP_PASSES")
+        .ok()
+        .and_then(|s| s.parse().ok())
+        .unwrap_or(20);
     let mut q = vec![0.0; robot.nq()];
-    let mut times = Vec::with_capacity(20 * PAIRS);
-    for _ in 0..20 {
+    let mut times = Vec::with_capacity(passes * PAIRS);
+    for _ in 0..passes {
         for (stack, start) in set.stacks.iter().zip(&set.starts) {
             q.copy_from_slice(start);
             let t = Instant::now();
@@ -113,9 +121,13 @@ fn loop_mode(robot: &Robot, set: &PairSet, buf: &mut ProjectionBuffer) {
 fn main() {
     let robot = clamber::robot_file::load_robot(Path::new("robots/sevenfold.toml"))
         .unwrap_or_else(|e| panic!("{e}"));
+    let only: Option<Vec<f64>> = std::env::var("CLAMBER_BENCH_DELTAS")
+        .ok()
+        .map(|s| s.split(',').filter_map(|d| d.trim().parse().ok()).collect());
     let sets: Vec<PairSet> = [0.05, 0.2, 0.5]
         .iter()
         .enumerate()
+        .filter(|(_, d)| only.as_ref().is_none_or(|o| o.contains(d)))
         .map(|(k, &d)| prepare(&robot, d, 2026 + k as u64))
         .collect();
     let mut buf = ProjectionBuffer::new(&robot, &sets[0].stacks[0]);
