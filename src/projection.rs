@@ -195,11 +195,12 @@ fn damped_step_rows(buf: &mut ProjectionBuffer, lambda: f64, m: usize) -> bool {
         return false;
     }
     let y = &mut buf.y;
-    for (y, f) in y.iter_mut().zip(buf.stack.residual.iter()) {
+    for (y, f) in y.iter_mut().zip(buf.stack.residual.as_slice()) {
         *y = -f;
     }
     cholesky_solve_in_place(a, m, y);
-    for ((dq, col), held) in buf.dq.iter_mut().zip(jd.chunks_exact(m)).zip(&buf.held) {
+    let dq = buf.dq.as_mut_slice();
+    for ((dq, col), held) in dq.iter_mut().zip(jd.chunks_exact(m)).zip(&buf.held) {
         *dq = if *held {
             0.0
         } else {
