@@ -146,9 +146,10 @@ fn fill_columns(
     jac: &mut DMatrix<f64>,
     angular: bool,
 ) {
-    jac.fill(0.0);
     let rows = jac.nrows();
     let data = jac.as_mut_slice(); // column-major: column c is data[c * rows..][..rows]
+                                   // On the slice: `DMatrix::fill` walks a strided iterator, ~10x the instructions (callgrind).
+    data.fill(0.0);
     let mut put = |col: usize, lin: &Vector3<f64>, ang: &Vector3<f64>| {
         let c = &mut data[col * rows..col * rows + rows];
         c[..3].copy_from_slice(lin.as_slice());

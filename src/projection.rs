@@ -6,7 +6,7 @@
 //! result into the joint limits, so no returned configuration is outside them. The damping
 //! `lambda` shrinks after a step that lowers the residual and grows after one that does not.
 
-use nalgebra::{Cholesky, DMatrix, DVector};
+use nalgebra::DVector;
 
 use crate::configuration::ConfigurationError;
 use crate::constraint::{ConstraintError, ConstraintStack, StackBuffer};
@@ -99,8 +99,9 @@ impl ProjectionReport {
 #[derive(Clone, Debug)]
 pub struct ProjectionBuffer {
     pub stack: StackBuffer,
-    normal: Option<DMatrix<f64>>,
-    y: DVector<f64>,
+    /// `J J^T + lambda I`, then its Cholesky factor (`rows x rows`, column-major).
+    normal: Vec<f64>,
+    y: Vec<f64>,
     dq: DVector<f64>,
     q_try: Vec<f64>,
     /// For each tangent coordinate of a one-DOF joint: its `q` index and position limits.
@@ -123,8 +124,8 @@ impl ProjectionBuffer {
         }
         ProjectionBuffer {
             stack: stack.buffer(robot),
-            normal: Some(DMatrix::zeros(m, m)),
-            y: DVector::zeros(m),
+            normal: vec![0.0; m * m],
+            y: vec![0.0; m],
             dq: DVector::zeros(robot.nv()),
             q_try: vec![0.0; robot.nq()],
             bounds,
@@ -144,60 +145,119 @@ const HOLD_PASSES: usize = 4;
 /// One damped step: `(J J^T + lambda I) y = -F`, `dq = J^T y`, with the columns of coordinates
 /// held at a limit removed. `false` if the system could not be factorized.
 ///
-/// `J J^T` and `J^T y` are written out as loops over the column-major Jacobian: for the small
-/// shapes here (6 x 7) nalgebra's dynamically sized gemm/transpose took about a quarter of
-/// the projection time (measured with callgrind, see docs/performance.md).
+/// `J J^T`, the Cholesky factorization, the two triangular solves and `J^T y` are written out
+/// as loops over flat column-major slices: for the small shapes here (6 x 7) nalgebra's
+/// dynamically sized gemm and its `Cholesky` (generic code working through matrix views)
+/// took about a third of the projection time (measured with callgrind, see
+/// docs/performance.md).
+///
+/// The row counts of the common stacks (a position grip, an axis grip, a point grip) get
+/// their own copies with `m` a compile-time constant, so the short loops are unrolled: that
+/// halves the instructions of a step for 6 rows (callgrind).
 fn damped_step(buf: &mut ProjectionBuffer, lambda: f64) -> bool {
-    let m = buf.stack.jacobian.nrows();
-    let Some(mut a) = buf.normal.take() else {
-        return false;
-    };
+    match buf.stack.jacobian.nrows() {
+        3 => damped_step_rows(buf, lambda, 3),
+        5 => damped_step_rows(buf, lambda, 5),
+        6 => damped_step_rows(buf, lambda, 6),
+        m => damped_step_rows(buf, lambda, m),
+    }
+}
+
+/// [`damped_step`] for a Jacobian of `m` rows.
+#[inline(always)]
+fn damped_step_rows(buf: &mut ProjectionBuffer, lambda: f64, m: usize) -> bool {
+    if m == 0 {
+        buf.dq.fill(0.0);
+        return true;
+    }
+    let jd = buf.stack.jacobian.as_slice();
+    let a = &mut buf.normal;
     a.fill(0.0);
-    {
-        let jd = buf.stack.jacobian.as_slice();
-        let ad = a.as_mut_slice();
-        for (c, held) in buf.held.iter().enumerate() {
-            if *held {
+    for (col, held) in jd.chunks_exact(m).zip(&buf.held) {
+        if *held {
+            continue;
+        }
+        // Lower triangle of the rank-one update col col^T (the factorization reads only that).
+        for (k, &ck) in col.iter().enumerate() {
+            if ck == 0.0 {
                 continue;
             }
-            let col = &jd[c * m..c * m + m];
-            // Lower triangle of the rank-one update col col^T (Cholesky reads only that).
-            for k in 0..m {
-                let ck = col[k];
-                if ck == 0.0 {
-                    continue;
-                }
-                let out = &mut ad[k * m..k * m + m];
-                for i in k..m {
-                    out[i] += col[i] * ck;
-                }
+            let out = &mut a[k * m + k..k * m + m];
+            for (o, c) in out.iter_mut().zip(&col[k..]) {
+                *o += c * ck;
             }
         }
     }
     for i in 0..m {
-        a[(i, i)] += lambda;
+        a[i * m + i] += lambda;
     }
-    match Cholesky::new(a) {
-        Some(chol) => {
-            buf.y.copy_from(&buf.stack.residual);
-            buf.y.neg_mut();
-            chol.solve_mut(&mut buf.y);
-            buf.normal = Some(chol.unpack_dirty());
-            let jd = buf.stack.jacobian.as_slice();
-            let y = buf.y.as_slice();
-            for (c, (dq, held)) in buf.dq.iter_mut().zip(&buf.held).enumerate() {
-                *dq = if *held {
-                    0.0
-                } else {
-                    jd[c * m..c * m + m].iter().zip(y).map(|(j, y)| j * y).sum()
-                };
+    if !cholesky_in_place(a, m) {
+        return false;
+    }
+    let y = &mut buf.y;
+    for (y, f) in y.iter_mut().zip(buf.stack.residual.as_slice()) {
+        *y = -f;
+    }
+    cholesky_solve_in_place(a, m, y);
+    let dq = buf.dq.as_mut_slice();
+    for ((dq, col), held) in dq.iter_mut().zip(jd.chunks_exact(m)).zip(&buf.held) {
+        *dq = if *held {
+            0.0
+        } else {
+            col.iter().zip(y.iter()).map(|(j, y)| j * y).sum()
+        };
+    }
+    true
+}
+
+/// Cholesky factorization `A = L L^T` in place: `a` is `m x m`, column-major; its lower
+/// triangle is read and overwritten by `L` (the upper triangle is left alone). `false` if `A`
+/// is not positive definite (a pivot that is not positive, or NaN). Column by column, the
+/// same order of operations as nalgebra's `Cholesky::new`.
+#[inline(always)]
+fn cholesky_in_place(a: &mut [f64], m: usize) -> bool {
+    for j in 0..m {
+        for k in 0..j {
+            let f = a[k * m + j];
+            for i in j..m {
+                a[j * m + i] -= f * a[k * m + i];
             }
-            true
         }
-        None => {
-            buf.normal = Some(DMatrix::zeros(m, m));
-            false
+        let d = a[j * m + j];
+        // A NaN pivot fails too (it is not greater than zero).
+        if d.partial_cmp(&0.0) != Some(std::cmp::Ordering::Greater) {
+            return false;
         }
+        let d = d.sqrt();
+        a[j * m + j] = d;
+        for x in &mut a[j * m + j + 1..j * m + m] {
+            *x /= d;
+        }
+    }
+    true
+}
+
+/// Solve `L L^T x = b` in place (`b` becomes `x`) with the factor from [`cholesky_in_place`].
+#[inline(always)]
+fn cholesky_solve_in_place(l: &[f64], m: usize, b: &mut [f64]) {
+    // L z = b, forward.
+    for i in 0..m {
+        let col = &l[i * m..i * m + m];
+        let zi = b[i] / col[i];
+        b[i] = zi;
+        for (br, lr) in b[i + 1..m].iter_mut().zip(&col[i + 1..]) {
+            *br -= zi * lr;
+        }
+    }
+    // L^T x = z, backward.
+    for i in (0..m).rev() {
+        let col = &l[i * m..i * m + m];
+        let dot: f64 = col[i + 1..]
+            .iter()
+            .zip(&b[i + 1..m])
+            .map(|(l, x)| l * x)
+            .sum();
+        b[i] = (b[i] - dot) / col[i];
     }
 }
 
@@ -250,6 +310,10 @@ pub fn project(
         };
         return Err(e.into());
     }
+    // Sized for the stack's rows (a buffer's stack part may have been replaced).
+    let m = buf.stack.jacobian.nrows();
+    buf.normal.resize(m * m, 0.0);
+    buf.y.resize(m, 0.0);
     robot.clamp_to_limits(q);
     let mut err = stack.evaluate(robot, q, &mut buf.stack, true)?;
     let mut evaluations = 1;

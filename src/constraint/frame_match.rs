@@ -180,19 +180,42 @@ impl Constraint for FrameMatch {
 
         if let Some(mut jac) = jacobian {
             let no = self.orientation_rows();
-            jac.fill(0.0);
+            if jac.ncols() != ctx.robot.nv() {
+                return Err(ConstraintError::WrongRobot {
+                    expected: jac.ncols(),
+                    got: ctx.robot.nv(),
+                });
+            }
+            if jac.nrows() != 3 + no {
+                return Err(ConstraintError::BadParameter {
+                    what: "Jacobian rows of a frame match",
+                    expected: "rows() of the constraint",
+                    got: jac.nrows() as f64,
+                });
+            }
+            // Column by column over slices (a column of the stack Jacobian's row block is
+            // contiguous): nalgebra's fill, zip_apply and gemm on dynamically sized strided
+            // views cost several times more here (callgrind, docs/performance.md).
+            for c in 0..jac.ncols() {
+                jac.column_mut(c).as_mut_slice().fill(0.0);
+            }
             for (frame, sign, map) in [(&self.a, 1.0, &map_a), (&self.b, -1.0, &map_b)] {
                 if frame.is_fixed() {
                     continue;
                 }
                 ctx.frame_jacobian(frame)?;
-                let s = &*ctx.scratch;
-                let mut top = jac.rows_mut(0, 3);
-                top.zip_apply(&s.rows(0, 3), |t, l| *t += sign * l);
-                if no > 0 {
-                    // `map` already carries the sign of frame b's contribution.
-                    jac.rows_mut(3, no)
-                        .gemm(1.0, &map.rows(0, no), &s.rows(3, 3), 1.0);
+                // Frame Jacobian column [v; w]: the position rows get `sign * v`, the
+                // orientation rows `map * w` (`map` already carries the sign of frame b).
+                for (c, s) in ctx.scratch.as_slice().chunks_exact(6).enumerate() {
+                    let r = map * Vector3::new(s[3], s[4], s[5]);
+                    let mut col = jac.column_mut(c);
+                    let col = col.as_mut_slice();
+                    for k in 0..3 {
+                        col[k] += sign * s[k];
+                    }
+                    for k in 0..no {
+                        col[3 + k] += r[k];
+                    }
                 }
             }
         }
