@@ -95,6 +95,27 @@ impl<'a> Checker<'a> {
         Ok(!model.in_collision(&self.poses, &mut self.scratch)?)
     }
 
+    fn distance(&self, a: &[f64], b: &[f64]) -> f64 {
+        self.robot.distance(a, b).unwrap_or(f64::INFINITY)
+    }
+
+    /// `to`, or the point `max_distance` from `from` toward it; and the distance to `to`.
+    fn clip(
+        &self,
+        from: &[f64],
+        to: &[f64],
+        max_distance: f64,
+    ) -> Result<(Vec<f64>, f64), CSpaceError> {
+        let d = self.distance(from, to);
+        let mut target = to.to_vec();
+        if d > max_distance {
+            self.robot
+                .interpolate(from, to, max_distance / d, &mut target)
+                .map_err(ConstraintError::from)?;
+        }
+        Ok((target, d))
+    }
+
     /// Every point of the straight segment a -> b at spacing <= `resolution` (excluding a) free.
     fn segment_free(&mut self, a: &[f64], b: &[f64], resolution: f64) -> Result<bool, CSpaceError> {
         let d = self.robot.distance(a, b).map_err(ConstraintError::from)?;
@@ -145,7 +166,7 @@ impl ConfigSpace for FreeSpace<'_> {
         })
     }
     fn distance(&self, a: &[f64], b: &[f64]) -> f64 {
-        self.checker.robot.distance(a, b).unwrap_or(f64::INFINITY)
+        self.checker.distance(a, b)
     }
     fn extend(
         &mut self,
@@ -153,15 +174,8 @@ impl ConfigSpace for FreeSpace<'_> {
         to: &[f64],
         max_distance: f64,
     ) -> Result<Extension, CSpaceError> {
-        let robot = self.checker.robot;
-        let d = self.distance(from, to);
+        let (target, d) = self.checker.clip(from, to, max_distance)?;
         let reached = d <= max_distance;
-        let mut target = to.to_vec();
-        if !reached {
-            robot
-                .interpolate(from, to, max_distance / d, &mut target)
-                .map_err(ConstraintError::from)?;
-        }
         if self.checker.segment_free(from, &target, self.resolution)? {
             Ok(Extension {
                 path: vec![target],
@@ -240,7 +254,7 @@ impl ConfigSpace for ConstrainedSpace<'_> {
         })
     }
     fn distance(&self, a: &[f64], b: &[f64]) -> f64 {
-        self.checker.robot.distance(a, b).unwrap_or(f64::INFINITY)
+        self.checker.distance(a, b)
     }
     fn extend(
         &mut self,
@@ -249,13 +263,7 @@ impl ConfigSpace for ConstrainedSpace<'_> {
         max_distance: f64,
     ) -> Result<Extension, CSpaceError> {
         let robot = self.checker.robot;
-        let d = self.distance(from, to);
-        let mut target = to.to_vec();
-        if d > max_distance {
-            robot
-                .interpolate(from, to, max_distance / d, &mut target)
-                .map_err(ConstraintError::from)?;
-        }
+        let (target, d) = self.checker.clip(from, to, max_distance)?;
         let w = walk(
             robot,
             self.stack,
