@@ -255,17 +255,11 @@ impl Robot {
     /// True if every bounded coordinate is within its position limits, widened by `slack`.
     pub fn within_limits(&self, q: &[f64], slack: f64) -> bool {
         q.len() == self.nq()
-            && self.joints().iter().all(|j| match j.kind {
-                JointKind::Floating => (0..3).all(|k| {
-                    let l = &j.limits[k];
-                    q[j.q_index + k] >= l.lower - slack && q[j.q_index + k] <= l.upper + slack
-                }),
-                JointKind::Fixed => true,
-                _ => {
-                    let l = &j.limits[0];
-                    q[j.q_index] >= l.lower - slack && q[j.q_index] <= l.upper + slack
-                }
-            })
+            && self
+                .joints()
+                .iter()
+                .flat_map(|j| j.bounded_coordinates())
+                .all(|(i, l)| q[i] >= l.lower - slack && q[i] <= l.upper + slack)
     }
 
     /// Clamp every bounded coordinate into its limits and renormalize quaternions. Returns
@@ -275,51 +269,36 @@ impl Robot {
             return false;
         }
         let mut moved = false;
-        let mut clamp = |x: &mut f64, lo: f64, hi: f64| {
-            let c = x.clamp(lo, hi);
-            if c != *x {
-                moved = true;
-                *x = c;
-            }
-        };
         for j in self.joints() {
-            match j.kind {
-                JointKind::Floating => {
-                    for k in 0..3 {
-                        clamp(&mut q[j.q_index + k], j.limits[k].lower, j.limits[k].upper);
-                    }
-                    let r = quat_at(q, j.q_index);
-                    put_quat(q, j.q_index, &r);
+            for (i, l) in j.bounded_coordinates() {
+                let c = q[i].clamp(l.lower, l.upper);
+                if c != q[i] {
+                    moved = true;
+                    q[i] = c;
                 }
-                JointKind::Fixed => {}
-                _ => clamp(&mut q[j.q_index], j.limits[0].lower, j.limits[0].upper),
+            }
+            if let JointKind::Floating = j.kind {
+                let r = quat_at(q, j.q_index);
+                put_quat(q, j.q_index, &r);
             }
         }
         moved
     }
-}
 
-impl Robot {
     /// Reach margin at `q`: the smallest distance of any driven (non-passive) bounded
     /// coordinate to its nearer position limit (radians or metres; floating rotation and
     /// unbounded coordinates do not count). Infinite when nothing is bounded.
     pub fn reach_margin(&self, q: &[f64]) -> f64 {
-        let mut m = f64::INFINITY;
         if q.len() != self.nq() {
             return f64::NAN;
         }
-        for j in self.joints().iter().filter(|j| !j.passive) {
-            let coords = match j.kind {
-                JointKind::Floating => 3,
-                JointKind::Fixed => 0,
-                _ => 1,
-            };
-            for k in 0..coords {
-                let (x, l) = (q[j.q_index + k], &j.limits[k]);
-                m = m.min(x - l.lower).min(l.upper - x);
-            }
-        }
-        m
+        self.joints()
+            .iter()
+            .filter(|j| !j.passive)
+            .flat_map(|j| j.bounded_coordinates())
+            .fold(f64::INFINITY, |m, (i, l)| {
+                m.min(q[i] - l.lower).min(l.upper - q[i])
+            })
     }
 }
 

@@ -253,29 +253,22 @@ pub fn verify_path(
 
 /// The first coordinate of `q` outside its position limits, as a defect.
 fn limit_defect(robot: &Robot, q: &[f64], at: PathPoint) -> Option<Defect> {
-    for j in robot.joints() {
-        let coords = match j.kind {
-            JointKind::Floating => 3,
-            JointKind::Fixed => 0,
-            _ => 1,
-        };
-        for k in 0..coords {
-            let (v, l) = (q[j.q_index + k], &j.limits[k]);
-            if v < l.lower || v > l.upper {
-                let joint = if coords > 1 {
-                    format!("{}[{k}]", j.name)
+    robot.joints().iter().find_map(|j| {
+        j.bounded_coordinates()
+            .find(|(i, l)| q[*i] < l.lower || q[*i] > l.upper)
+            .map(|(i, l)| {
+                let joint = if matches!(j.kind, JointKind::Floating) {
+                    format!("{}[{}]", j.name, i - j.q_index)
                 } else {
                     j.name.clone()
                 };
-                return Some(Defect::OutsideLimits {
+                Defect::OutsideLimits {
                     at,
                     joint,
-                    value: v,
+                    value: q[i],
                     lower: l.lower,
                     upper: l.upper,
-                });
-            }
-        }
-    }
-    None
+                }
+            })
+    })
 }

@@ -80,6 +80,24 @@ impl Limits {
     }
 }
 
+impl Joint {
+    /// Configuration coordinates with position limits, paired with those limits: for a
+    /// one-DOF joint its coordinate, for a floating joint its translation `x y z` (the
+    /// quaternion has none), for a fixed joint nothing. Yields `(index into q, limits)`.
+    pub fn bounded_coordinates(&self) -> impl Iterator<Item = (usize, &Limits)> {
+        let n = match self.kind {
+            JointKind::Floating => 3,
+            JointKind::Fixed => 0,
+            _ => 1,
+        };
+        self.limits
+            .iter()
+            .take(n)
+            .enumerate()
+            .map(move |(k, l)| (self.q_index + k, l))
+    }
+}
+
 /// A joint joining `parent` link to `child` link. The child link's frame is the joint frame
 /// after the joint's motion: `T_child = T_parent * origin * motion(q)` (the URDF convention).
 #[derive(Clone, Debug)]
