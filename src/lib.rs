@@ -20,6 +20,7 @@ pub mod projection;
 pub mod report;
 pub mod robot_file;
 pub mod sampling;
+pub mod scene;
 pub mod settings;
 pub mod timing;
 pub mod verify;
