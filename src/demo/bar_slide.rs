@@ -1,0 +1,1 @@
+//! Demo scenario `bar_slide` (being written).

@@ -1,0 +1,1 @@
+//! Demo scenario `carry` (being written).

@@ -1,0 +1,1 @@
+//! Demo scenario `climb` (being written).

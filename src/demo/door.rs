@@ -1,0 +1,1 @@
+//! Demo scenario `door` (being written).

@@ -1,0 +1,1 @@
+//! Demo scenario `lever` (being written).
