@@ -40,6 +40,16 @@ fn collides(robot: &Robot, scene: &Scene, q: &[f64]) -> bool {
         .unwrap()
 }
 
+fn clearance(robot: &Robot, scene: &Scene, q: &[f64]) -> f64 {
+    let model = CollisionModel::new(robot, &scene.obstacles).unwrap();
+    let mut poses = vec![Pose::identity(); robot.links().len()];
+    forward_kinematics(robot, q, &mut poses).unwrap();
+    model
+        .clearance(&poses, &mut CollisionScratch::new())
+        .unwrap()
+        .distance
+}
+
 /// World position of an effector's grip frame at `q`.
 fn grip_point(robot: &Robot, effector: &str, q: &[f64]) -> Point3<f64> {
     let mut poses = vec![Pose::identity(); robot.links().len()];
@@ -280,16 +290,49 @@ fn corridor_turns_the_corner_and_keeps_spacing_inside_the_span() {
 fn every_consecutive_corridor_pair_can_be_held_at_once() {
     // The hand-over-hand route holds rungs (k, k+1) with the hands alternating. For each pair
     // find a configuration and re-check it independently.
-    let s = climb::corridor(12).unwrap();
-    for k in 0..11 {
-        let stance = climb::pair_stance(k, rung(&s, k), k + 1, rung(&s, k + 1));
+    for n in [4, 8, 12, 16] {
+        let s = climb::corridor(n).unwrap();
+        all_pairs_held(&s, n);
+    }
+}
+
+fn all_pairs_held(s: &Scenario, n: usize) {
+    for k in 0..n - 1 {
+        let stance = climb::pair_stance(k, rung(s, k), k + 1, rung(s, k + 1));
         let q = climb::find_pose(&s.robot, &s.scene, &stance, 100 + k as u64, 400)
             .unwrap()
             .unwrap_or_else(|| panic!("no configuration holds rungs {k} and {}", k + 1));
-        let r = residual(&s, &stance, &q);
-        assert!(r <= s.limits.tolerance, "pair {k}: residual {r:e}");
-        assert!(s.robot.within_limits(&q, 0.0), "pair {k}: limits");
-        assert!(!collides(&s.robot, &s.scene, &q), "pair {k}: collision");
+        let r = residual(s, &stance, &q);
+        assert!(
+            r <= s.limits.tolerance,
+            "corridor_{n} pair {k}: residual {r:e}"
+        );
+        assert!(
+            s.robot.within_limits(&q, 0.0),
+            "corridor_{n} pair {k}: limits"
+        );
+        assert!(
+            !collides(&s.robot, &s.scene, &q),
+            "corridor_{n} pair {k}: collision"
+        );
+        // Comfortably: away from every joint limit and every wall. Margin recomputed here
+        // from the joint limits, clearance from the collision model's distance query.
+        let margin = s
+            .robot
+            .joints()
+            .iter()
+            .flat_map(|j| j.bounded_coordinates())
+            .map(|(i, l)| (q[i] - l.lower).min(l.upper - q[i]))
+            .fold(f64::INFINITY, f64::min);
+        assert!(
+            margin >= climb::POSE_MIN_MARGIN,
+            "corridor_{n} pair {k}: joint margin {margin}"
+        );
+        let c = clearance(&s.robot, &s.scene, &q);
+        assert!(
+            c >= climb::POSE_MIN_CLEARANCE,
+            "corridor_{n} pair {k}: clearance {c}"
+        );
     }
 }
 

@@ -64,6 +64,11 @@ pub const GAP_FAR: &str = "ledge_far";
 /// Tolerance the bundled starts are projected to (metres and radians); far inside
 /// [`ScenarioLimits::default`]'s tolerance.
 pub const START_TOLERANCE: f64 = 1e-9;
+/// Least reach margin (distance to the nearest joint limit, radians or metres) of a pose
+/// returned by [`find_pose`].
+pub const POSE_MIN_MARGIN: f64 = 0.05;
+/// Least clearance (metres) of a pose returned by [`find_pose`].
+pub const POSE_MIN_CLEARANCE: f64 = 0.01;
 /// Seed of the start searches (the scenario's own seed is separate).
 const START_SEED: u64 = 0x7e55e1;
 /// Random starting guesses tried per pose search.
@@ -548,7 +553,9 @@ fn grip_targets(scene: &Scene, stance: &Stance) -> Vec<(String, Point3<f64>, Vec
 }
 
 /// Search for a configuration of the climber holding `stance` in `scene`: converged to
-/// [`START_TOLERANCE`], within the joint limits, free of collision. Guesses put the torso
+/// [`START_TOLERANCE`], at least [`POSE_MIN_MARGIN`] inside every joint limit and at least
+/// [`POSE_MIN_CLEARANCE`] from every collision (a comfortable pose, not one pinned at a limit
+/// or grazing a wall). Guesses put the torso
 /// facing the holds, shoulders across the line between the grips, at a random offset; arm
 /// joints are random. Deterministic in `seed`. `Ok(None)` when `attempts` guesses fail.
 pub fn find_pose(
@@ -621,11 +628,11 @@ pub fn find_pose(
             }
         }
         let rep = project(robot, &stack, &settings, &mut q, &mut buf)?;
-        if !rep.converged() || !robot.within_limits(&q, 0.0) {
+        if !rep.converged() || robot.reach_margin(&q) < POSE_MIN_MARGIN {
             continue;
         }
         forward_kinematics(robot, &q, &mut poses).map_err(ConstraintError::from)?;
-        if collision.in_collision(&poses, &mut scratch)? {
+        if collision.in_collision_with_margin(&poses, POSE_MIN_CLEARANCE, &mut scratch)? {
             continue;
         }
         return Ok(Some(q));
