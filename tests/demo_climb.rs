@@ -426,9 +426,11 @@ fn gap_is_wider_than_the_span() {
     // difference of their x coordinates.
     assert_eq!((a0.y, a1.y, a0.z), (b0.y, b1.y, b0.z));
     let width = b0.x - a0.x;
+    assert!(width > span, "gap {width} not wider than span {span}");
     assert!(
-        width >= span + climb::GAP_MARGIN - 1e-12,
-        "gap {width} vs span {span}"
+        (width - (span + climb::GAP_MARGIN)).abs() < 1e-12,
+        "gap {width} vs span {span} + margin {}",
+        climb::GAP_MARGIN
     );
     // Every hold before the gap is farther from every hold after it than the span.
     let near: Vec<_> = ["ledge_0", "ledge_1", climb::GAP_NEAR]
