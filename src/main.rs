@@ -444,11 +444,21 @@ fn report_error(e: &anyhow::Error, style: Style, exit: Exit) {
                 continue;
             };
             let file = SimpleFile::new(p.path.display().to_string(), text);
+            // The header keeps the one-line `file:line:column: message` form that editors
+            // and scripts look for; the snippet below it shows the place.
+            let header = format!(
+                "{}:{}:{}: {}",
+                p.path.display(),
+                p.line,
+                p.column,
+                p.message
+            );
             let d = if k == 0 {
-                Diagnostic::error().with_message(&p.message)
+                Diagnostic::error()
             } else {
-                Diagnostic::note().with_message("in the referenced file")
+                Diagnostic::note()
             }
+            .with_message(header)
             .with_labels(vec![Label::primary((), range).with_message(&p.message)]);
             drawn |= term::emit_to_write_style(&mut stderr, &config, &file, &d).is_ok();
         }

@@ -455,29 +455,28 @@ fn obstacle(c: &Checker, raw: &Spanned<ObstacleRaw>, earlier: &[Obstacle]) -> Re
         xyz: o.xyz.clone(),
         rpy: o.rpy.clone(),
     };
-    let shape =
-        parse_shape(c.text, c.path, &name, &Spanned::new(span, shape)).map_err(|e| {
-            match c.embedded(e) {
-                // The model names a shape by its link; an obstacle is not on one.
-                ScenarioFileError::Field {
-                    path,
-                    line,
-                    column,
-                    field,
-                    message,
-                } => ScenarioFileError::Field {
-                    path,
-                    line,
-                    column,
-                    field,
-                    message: message.replace(
-                        &format!("link `{name}` shape 0"),
-                        &format!("obstacle `{name}`"),
-                    ),
-                },
-                e => e,
-            }
-        })?;
+    let shape = parse_shape(c.text, c.path, &name, &Spanned::new(span, shape)).map_err(|e| {
+        match c.embedded(e) {
+            // The model names a shape by its link; an obstacle is not on one.
+            ScenarioFileError::Field {
+                path,
+                line,
+                column,
+                field,
+                message,
+            } => ScenarioFileError::Field {
+                path,
+                line,
+                column,
+                field,
+                message: message.replace(
+                    &format!("link `{name}` shape 0"),
+                    &format!("obstacle `{name}`"),
+                ),
+            },
+            e => e,
+        }
+    })?;
     Ok(Obstacle { name, shape })
 }
 
