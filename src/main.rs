@@ -291,10 +291,9 @@ fn scenario(file: &Path, style: Style) -> Result<()> {
         if m.settled { ", settled" } else { "" }
     ));
     if style.verbose {
-        for (name, x) in s.robot.joints().iter().filter_map(|j| {
-            (j.kind.nq() > 0).then(|| (&j.name, &s.start.q[j.q_index..j.q_index + j.kind.nq()]))
-        }) {
-            out.push_str(&format!("  {name} = {x:?}\n"));
+        for j in s.robot.joints().iter().filter(|j| j.kind.nq() > 0) {
+            let x = &s.start.q[j.q_index..j.q_index + j.kind.nq()];
+            out.push_str(&format!("  {} = {x:?}\n", j.name));
         }
     }
     out.push_str(&format!("goal: {}\n", m.goal));

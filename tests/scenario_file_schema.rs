@@ -67,7 +67,6 @@ fn malformed_files_fail_the_schema() {
         "scene_not_a_table",
         "settle_not_boolean",
         "mechanism_unknown_key",
-        "floating_value_for_revolute",
     ] {
         let path = repo(&format!("tests/data/bad_scenarios/{file}.scenario.toml"));
         let doc = as_json(&path);

@@ -900,7 +900,7 @@ fn start(
         let residual = stack
             .evaluate(robot, &q, &mut buf, false)
             .map_err(constraint_error)?;
-        if !(residual <= limits.tolerance) {
+        if residual.is_nan() || residual > limits.tolerance {
             return Err(c.field(
                 &stance_span,
                 "stance",
