@@ -24,7 +24,6 @@ use clamber::scenario_file::{load_scenario, ScenarioFile, ScenarioFileError};
 /// The process exit codes, in one place. Shown by `clamber --help`, documented in
 /// `docs/cli.md`.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
-#[allow(dead_code)] // NoRoute and Verification are returned by `plan` and `verify`.
 enum Exit {
     Success = 0,
     /// An unexpected failure inside Clamber (a bug or an environment problem).

@@ -4,7 +4,7 @@
 
 use std::path::{Path, PathBuf};
 
-use clamber::scenario_file::{load_scenario, ScenarioFileError};
+use clamber::scenario_file::{load_scenario, parse_scenario, ScenarioFileError};
 use serde::Deserialize;
 
 #[derive(Deserialize)]
@@ -110,4 +110,68 @@ fn missing_scenario_file_is_an_io_error() {
     let e = load_scenario(&dir().join("does_not_exist.scenario.toml")).expect_err("rejected");
     assert!(matches!(e, ScenarioFileError::Io { .. }), "{e:?}");
     assert_eq!(e.position(), None);
+}
+
+/// Every line of a bundled scenario deleted, or its value replaced by values of every other
+/// type: the reader never panics, and each error points inside the file.
+#[test]
+fn mutated_files_never_panic_and_errors_point_inside_the_file() {
+    let path = Path::new(env!("CARGO_MANIFEST_DIR")).join("scenarios/sevenfold_rail.scenario.toml");
+    let text = std::fs::read_to_string(&path).expect("bundled scenario");
+    let lines: Vec<&str> = text.lines().collect();
+    let replacements = [
+        "5",
+        "-1",
+        "0",
+        "\"x\"",
+        "\"\"",
+        "nan",
+        "-inf",
+        "[1]",
+        "[1, 2, 3]",
+        "[\"a\", \"b\", \"c\"]",
+        "{}",
+        "{ joint1 = 1 }",
+        "true",
+        "1979-05-27",
+        "9223372036854775807",
+        "1e308",
+    ];
+    let mut variants = Vec::new();
+    for i in 0..lines.len() {
+        let mut v = lines.clone();
+        v.remove(i);
+        variants.push(v.join("\n"));
+        if let Some((key, _)) = lines[i].split_once(" = ") {
+            for r in replacements {
+                let mut v = lines.clone();
+                let line = format!("{key} = {r}");
+                v[i] = &line;
+                variants.push(v.join("\n"));
+            }
+        }
+    }
+    assert!(variants.len() > 200, "{} variants", variants.len());
+    let (mut accepted, mut rejected) = (0, 0);
+    for variant in &variants {
+        let n_lines = variant.lines().count().max(1);
+        let result = std::panic::catch_unwind(|| parse_scenario(variant, &path));
+        match result {
+            Err(_) => panic!("reader panicked on:\n{variant}"),
+            Ok(Ok(_)) => accepted += 1,
+            Ok(Err(e)) => {
+                rejected += 1;
+                let (line, column) = e.position().expect("a parse error has a place");
+                assert!(
+                    (1..=n_lines + 1).contains(&line) && column >= 1,
+                    "{e} points outside the file"
+                );
+            }
+        }
+    }
+    // Most mutations break something; some (a comment deleted, a changed seed) do not.
+    assert!(
+        rejected > accepted,
+        "{rejected} rejected, {accepted} accepted"
+    );
 }
