@@ -32,7 +32,7 @@ type Span = Range<usize>;
 
 /// Any TOML value, with the spans of array elements kept so an error can point at one.
 #[derive(Debug, Clone)]
-enum Raw {
+pub(crate) enum Raw {
     Int(i64),
     Float(f64),
     Str(String),
@@ -44,7 +44,7 @@ enum Raw {
 
 impl Raw {
     /// What the value is, for "found ..." in messages.
-    fn describe(&self) -> String {
+    pub(crate) fn describe(&self) -> String {
         match self {
             Raw::Int(_) | Raw::Float(_) => "a number".into(),
             Raw::Str(s) => format!("a string (\"{s}\")"),
@@ -110,7 +110,7 @@ impl<'de> Deserialize<'de> for Raw {
 }
 
 /// A table type of the document: its key and how it is written, for messages.
-trait Section {
+pub(crate) trait Section {
     const KEY: &'static str;
     const HEADER: &'static str;
 }
@@ -120,7 +120,7 @@ fn found<E: de::Error>(key: &str, header: &str, what: &str) -> E {
 }
 
 /// An array of tables (`[[link]]`), each element with its span (the span of its header).
-struct Tables<T>(Vec<Spanned<T>>);
+pub(crate) struct Tables<T>(pub(crate) Vec<Spanned<T>>);
 
 impl<T> Default for Tables<T> {
     fn default() -> Self {
@@ -191,7 +191,7 @@ impl<'de, T: Deserialize<'de> + Section> Deserialize<'de> for Tables<T> {
 }
 
 /// A single table (`[robot]`).
-struct One<T>(T);
+pub(crate) struct One<T>(pub(crate) T);
 
 impl<'de, T: Deserialize<'de> + Section> Deserialize<'de> for One<T> {
     fn deserialize<D: Deserializer<'de>>(d: D) -> Result<Self, D::Error> {
@@ -251,7 +251,7 @@ impl<'de, T: Deserialize<'de> + Section> Deserialize<'de> for One<T> {
     }
 }
 
-type Field = Option<Spanned<Raw>>;
+pub(crate) type Field = Option<Spanned<Raw>>;
 
 #[derive(Deserialize)]
 #[serde(deny_unknown_fields)]
@@ -280,7 +280,7 @@ const ROBOT_KEYS: &[&str] = &["name"];
 
 #[derive(Deserialize)]
 #[serde(deny_unknown_fields)]
-struct CollisionRaw {
+pub(crate) struct CollisionRaw {
     ignore_adjacent: Field,
     ignore: Field,
 }
@@ -288,11 +288,11 @@ impl Section for CollisionRaw {
     const KEY: &'static str = "collision";
     const HEADER: &'static str = "[collision]";
 }
-const COLLISION_KEYS: &[&str] = &["ignore_adjacent", "ignore"];
+pub(crate) const COLLISION_KEYS: &[&str] = &["ignore_adjacent", "ignore"];
 
 #[derive(Deserialize)]
 #[serde(deny_unknown_fields)]
-struct LinkRaw {
+pub(crate) struct LinkRaw {
     name: Field,
     #[serde(default)]
     shape: Tables<ShapeRaw>,
@@ -301,33 +301,34 @@ impl Section for LinkRaw {
     const KEY: &'static str = "link";
     const HEADER: &'static str = "[[link]]";
 }
-const LINK_KEYS: &[&str] = &["name", "shape"];
+pub(crate) const LINK_KEYS: &[&str] = &["name", "shape"];
 
 #[derive(Deserialize)]
 #[serde(deny_unknown_fields)]
-struct ShapeRaw {
+#[derive(Default)]
+pub(crate) struct ShapeRaw {
     #[serde(rename = "type")]
-    kind: Field,
-    radius: Field,
-    length: Field,
-    size: Field,
-    file: Field,
-    scale: Field,
-    convex: Field,
-    xyz: Field,
-    rpy: Field,
+    pub(crate) kind: Field,
+    pub(crate) radius: Field,
+    pub(crate) length: Field,
+    pub(crate) size: Field,
+    pub(crate) file: Field,
+    pub(crate) scale: Field,
+    pub(crate) convex: Field,
+    pub(crate) xyz: Field,
+    pub(crate) rpy: Field,
 }
 impl Section for ShapeRaw {
     const KEY: &'static str = "shape";
     const HEADER: &'static str = "[[link.shape]]";
 }
-const SHAPE_KEYS: &[&str] = &[
+pub(crate) const SHAPE_KEYS: &[&str] = &[
     "type", "radius", "length", "size", "file", "scale", "convex", "xyz", "rpy",
 ];
 
 #[derive(Deserialize)]
 #[serde(deny_unknown_fields)]
-struct JointRaw {
+pub(crate) struct JointRaw {
     name: Field,
     #[serde(rename = "type")]
     kind: Field,
@@ -346,7 +347,7 @@ impl Section for JointRaw {
     const KEY: &'static str = "joint";
     const HEADER: &'static str = "[[joint]]";
 }
-const JOINT_KEYS: &[&str] = &[
+pub(crate) const JOINT_KEYS: &[&str] = &[
     "name",
     "type",
     "parent",
@@ -363,7 +364,7 @@ const JOINT_KEYS: &[&str] = &[
 
 #[derive(Deserialize)]
 #[serde(deny_unknown_fields)]
-struct EffectorRaw {
+pub(crate) struct EffectorRaw {
     name: Field,
     link: Field,
     xyz: Field,
@@ -373,7 +374,7 @@ impl Section for EffectorRaw {
     const KEY: &'static str = "effector";
     const HEADER: &'static str = "[[effector]]";
 }
-const EFFECTOR_KEYS: &[&str] = &["name", "link", "xyz", "rpy"];
+pub(crate) const EFFECTOR_KEYS: &[&str] = &["name", "link", "xyz", "rpy"];
 
 /// Where each set of keys is allowed, to name the table in an unknown-key message.
 const SECTIONS: &[(&str, &[&str])] = &[
@@ -387,7 +388,7 @@ const SECTIONS: &[(&str, &[&str])] = &[
 ];
 
 const JOINT_TYPES: &[&str] = &["revolute", "prismatic", "fixed", "floating"];
-const SHAPE_TYPES: &[&str] = &["sphere", "box", "capsule", "cylinder", "mesh"];
+pub(crate) const SHAPE_TYPES: &[&str] = &["sphere", "box", "capsule", "cylinder", "mesh"];
 
 // ---------------------------------------------------------------------------------------
 // Suggestions
@@ -395,7 +396,7 @@ const SHAPE_TYPES: &[&str] = &["sphere", "box", "capsule", "cylinder", "mesh"];
 /// The expected word closest to `got`, when it is close enough to be a likely typo.
 /// Uses the Damerau-Levenshtein distance from `strsim` (transpositions count as one edit),
 /// allowing about one edit per three characters.
-fn suggest<'a>(got: &str, expected: &[&'a str]) -> Option<&'a str> {
+pub(crate) fn suggest<'a>(got: &str, expected: &[&'a str]) -> Option<&'a str> {
     let got_lower = got.to_ascii_lowercase();
     expected
         .iter()
@@ -405,13 +406,13 @@ fn suggest<'a>(got: &str, expected: &[&'a str]) -> Option<&'a str> {
         .map(|(_, e)| e)
 }
 
-fn did_you_mean(got: &str, expected: &[&str]) -> String {
+pub(crate) fn did_you_mean(got: &str, expected: &[&str]) -> String {
     suggest(got, expected)
         .map(|s| format!("; did you mean `{s}`?"))
         .unwrap_or_default()
 }
 
-fn backticked(words: &[&str]) -> String {
+pub(crate) fn backticked(words: &[&str]) -> String {
     words
         .iter()
         .map(|w| format!("`{w}`"))
@@ -427,14 +428,20 @@ fn backticked_words(s: &str) -> Vec<&str> {
 /// Rewrite serde's "unknown field `x`, expected one of `a`, `b`" into our wording, naming
 /// the table and suggesting the closest key.
 fn rewrite_serde_message(message: &str) -> String {
+    rewrite_unknown_key(message, SECTIONS)
+}
+
+/// [`rewrite_serde_message`] for another document: `sections` names each table by its key
+/// list (the first table whose list matches is named). Shared with the scenario reader.
+pub(crate) fn rewrite_unknown_key(message: &str, sections: &[(&str, &[&str])]) -> String {
     if let Some(rest) = message.strip_prefix("unknown field ") {
         let words = backticked_words(rest);
         if let Some((&got, expected)) = words.split_first() {
-            let section = SECTIONS
+            let section = sections
                 .iter()
                 .find(|(_, keys)| *keys == expected)
                 .map(|(s, _)| *s);
-            let expected: Vec<&str> = match SECTIONS.iter().find(|(_, keys)| *keys == expected) {
+            let expected: Vec<&str> = match sections.iter().find(|(_, keys)| *keys == expected) {
                 Some((_, keys)) => keys.to_vec(),
                 None => expected.to_vec(),
             };
@@ -450,7 +457,7 @@ fn rewrite_serde_message(message: &str) -> String {
 }
 
 /// The parser says only "duplicate key"; add the key, read from the text at the span.
-fn name_duplicate_key(message: String, text: &str, span: Option<Span>) -> String {
+pub(crate) fn name_duplicate_key(message: String, text: &str, span: Option<Span>) -> String {
     if message != "duplicate key" {
         return message;
     }
@@ -827,6 +834,19 @@ impl<'a> Reader<'a> {
         raw: &Spanned<ShapeRaw>,
         base_dir: &Path,
     ) -> Res<Shape> {
+        self.shape_described(link, None, li, si, raw, base_dir)
+    }
+
+    /// [`Reader::shape`], naming the shape `described` in messages when given.
+    fn shape_described(
+        &mut self,
+        link: &str,
+        described: Option<&str>,
+        li: usize,
+        si: usize,
+        raw: &Spanned<ShapeRaw>,
+        base_dir: &Path,
+    ) -> Res<Shape> {
         let span = raw.span();
         let s = raw.get_ref();
         let entry = self.entry(
@@ -847,12 +867,15 @@ impl<'a> Reader<'a> {
             v.push(entry);
         }
         let item = Item {
-            desc: format!("link `{link}` shape {si}"),
+            desc: described.map_or_else(|| format!("link `{link}` shape {si}"), str::to_string),
             kind: ItemKind::Shape,
             index: li,
             sub_index: si,
         };
-        let what = format!("link `{link}` shape {si}");
+        let what = match described {
+            Some(d) => d.to_string(),
+            None => format!("link `{link}` shape {si}"),
+        };
         let kind = self.choice(
             self.required(&s.kind, "type", &span, &what)?,
             "type",
@@ -1181,6 +1204,79 @@ pub fn parse(text: &str, path: &Path) -> Result<(RobotSpec, SourceMap), RobotFil
         spec.effectors.push(effector);
     }
     Ok((spec, r.map))
+}
+
+/// Read the robot-format tables of a larger document (a mechanism written inline in a
+/// scenario file): the spans in the raw tables are offsets into `text`, so positions in
+/// errors and in the returned map are positions in that document. Shared with the scenario
+/// reader.
+pub(crate) fn parse_parts(
+    text: &str,
+    path: &Path,
+    name: String,
+    collision: &Option<Spanned<One<CollisionRaw>>>,
+    links: &Tables<LinkRaw>,
+    joints: &Tables<JointRaw>,
+    effectors: &Tables<EffectorRaw>,
+) -> Result<(RobotSpec, SourceMap), RobotFileError> {
+    let mut r = Reader {
+        text,
+        path,
+        map: SourceMap::default(),
+    };
+    let base_dir: PathBuf = path.parent().map(Path::to_path_buf).unwrap_or_default();
+    let mut spec = RobotSpec {
+        name,
+        ..RobotSpec::default()
+    };
+    r.collision(collision, &mut spec)?;
+    for (li, l) in links.0.iter().enumerate() {
+        let link = r.link(li, l, &base_dir)?;
+        spec.links.push(link);
+    }
+    for (ji, j) in joints.0.iter().enumerate() {
+        let joint = r.joint(ji, j)?;
+        spec.joints.push(joint);
+    }
+    for (ei, e) in effectors.0.iter().enumerate() {
+        let effector = r.effector(ei, e)?;
+        spec.effectors.push(effector);
+    }
+    Ok((spec, r.map))
+}
+
+/// Read one shape written with the keys of a `[[link.shape]]` table (the scene obstacle
+/// `name`), and check it as the model checks link shapes (positive sizes, valid meshes);
+/// mesh files are relative to `path`'s directory. Shared with the scenario reader.
+pub(crate) fn parse_shape(
+    text: &str,
+    path: &Path,
+    name: &str,
+    raw: &Spanned<ShapeRaw>,
+) -> Result<Shape, RobotFileError> {
+    let mut r = Reader {
+        text,
+        path,
+        map: SourceMap::default(),
+    };
+    r.map.links.push(Entry::default());
+    r.map.shapes.push(Vec::new());
+    let base_dir: PathBuf = path.parent().map(Path::to_path_buf).unwrap_or_default();
+    let what = format!("obstacle `{name}`");
+    let shape = r.shape_described(name, Some(&what), 0, 0, raw, &base_dir)?;
+    // The model's shape rules, applied through a one-link description.
+    let check = RobotSpec {
+        name: name.to_string(),
+        links: vec![LinkSpec {
+            name: name.to_string(),
+            shapes: vec![shape.clone()],
+        }],
+        ..RobotSpec::default()
+    };
+    check
+        .build()
+        .map_err(|e| locate_model_error(e, &r.map, path))?;
+    Ok(shape)
 }
 
 /// Map a model error to the place in the file it is about.
