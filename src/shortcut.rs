@@ -223,7 +223,8 @@ pub fn shorten<S: ConfigSpace>(
             };
             let old =
                 space.distance(&path[k - 1], &path[k]) + space.distance(&path[k], &path[k + 1]);
-            let new = chain_length(space, &path[k - 1], &first) + chain_length(space, &moved, &second);
+            let new =
+                chain_length(space, &path[k - 1], &first) + chain_length(space, &moved, &second);
             if new < old {
                 // Replace path[k] by first (ending with `moved`) and second without its last
                 // point (path[k + 1], already there).
