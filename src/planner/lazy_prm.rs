@@ -65,8 +65,7 @@ impl PrmSettings {
                 });
             }
         }
-        // NaN fails this comparison too.
-        if !(max_edge > 0.0) {
+        if max_edge.is_nan() || max_edge <= 0.0 {
             return Err(SettingsError::OutOfRange {
                 name: "max_edge",
                 expected: "positive (infinity allowed)",
