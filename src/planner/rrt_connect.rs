@@ -1,19 +1,15 @@
-//! Sampling-based planners written once against [`ConfigSpace`]: the same code plans in the
-//! free joint box and on a constraint manifold.
-//!
 //! RRT-Connect: J. Kuffner, S. LaValle, "RRT-Connect: An efficient approach to single-query
 //! path planning", ICRA 2000. Two trees grow from the start and the goal; each round one tree
 //! extends toward a random sample and the other tries to connect to the new node.
-//! Nearest neighbours by linear scan (fine for trees of a few thousand nodes; a measured
-//! spatial index comes with the roadmap planner).
 
 use std::time::{Duration, Instant};
 
 use rand::SeedableRng;
 use rand_chacha::ChaCha8Rng;
-use thiserror::Error;
 
-use crate::cspace::{CSpaceError, CSpaceStats, ConfigSpace};
+use super::{check_endpoints, stats_delta, Plan, PlanError, PlanStats};
+use crate::cspace::ConfigSpace;
+use crate::nearest::NearestIndex;
 use crate::settings::{positive, SettingsError};
 
 /// Planner settings. Build with [`RrtSettings::new`] (checked).
@@ -51,64 +47,35 @@ impl RrtSettings {
     }
 }
 
-/// What the planner did.
-#[derive(Clone, Copy, Debug, Default, PartialEq)]
-pub struct PlanStats {
-    pub samples: usize,
-    pub nodes: usize,
-    pub space: CSpaceStats,
-    pub elapsed: Duration,
-}
-
-/// A planner's answer: the path (start to goal, each consecutive pair joined by a valid
-/// motion of the space), or `None` if none was found within the limits; and what it cost.
-#[derive(Clone, Debug, PartialEq)]
-pub struct Plan {
-    pub path: Option<Vec<Vec<f64>>>,
-    pub stats: PlanStats,
-}
-
-/// Why planning could not start.
-#[derive(Debug, Error, Clone, PartialEq)]
-#[non_exhaustive]
-pub enum PlanError {
-    #[error("the {which} configuration is not valid (limits, constraints or collision)")]
-    InvalidEndpoint { which: &'static str },
-    #[error(transparent)]
-    Space(#[from] CSpaceError),
-}
-
 struct Tree {
     nodes: Vec<Vec<f64>>,
     parent: Vec<usize>,
+    index: NearestIndex,
 }
 
 impl Tree {
-    fn new(root: &[f64]) -> Self {
-        Tree {
+    fn new(robot: &crate::model::Robot, root: &[f64]) -> Result<Self, PlanError> {
+        let mut index = NearestIndex::new(robot);
+        index.insert(root)?;
+        Ok(Tree {
             nodes: vec![root.to_vec()],
             parent: vec![0],
-        }
+            index,
+        })
     }
-    fn nearest<S: ConfigSpace>(&self, space: &S, q: &[f64]) -> usize {
-        let mut best = (0, f64::INFINITY);
-        for (i, n) in self.nodes.iter().enumerate() {
-            let d = space.distance(n, q);
-            if d < best.1 {
-                best = (i, d);
-            }
-        }
-        best.0
+    fn nearest(&self, q: &[f64]) -> Result<usize, PlanError> {
+        Ok(self.index.nearest(q)?.map_or(0, |(i, _)| i))
     }
     /// Append a chain of nodes below `from`; returns the index of the last (or `from`).
-    fn add_chain(&mut self, from: usize, chain: Vec<Vec<f64>>) -> usize {
+    fn add_chain(&mut self, from: usize, chain: Vec<Vec<f64>>) -> Result<usize, PlanError> {
         let mut last = from;
         for q in chain {
+            self.index.insert(&q)?;
             self.nodes.push(q);
             self.parent.push(last);
             last = self.nodes.len() - 1;
         }
-        last
+        Ok(last)
     }
     /// Nodes from the root to `i`.
     fn path_to(&self, mut i: usize) -> Vec<Vec<f64>> {
@@ -122,7 +89,9 @@ impl Tree {
     }
 }
 
-/// Plan from `start` to `goal` with RRT-Connect.
+/// Plan from `start` to `goal` with RRT-Connect. Nearest neighbours use the robot's
+/// joint-space distance ([`NearestIndex`]), the distance of both spaces in
+/// [`crate::cspace`].
 pub fn rrt_connect<S: ConfigSpace>(
     space: &mut S,
     start: &[f64],
@@ -130,23 +99,22 @@ pub fn rrt_connect<S: ConfigSpace>(
     settings: &RrtSettings,
 ) -> Result<Plan, PlanError> {
     let t0 = Instant::now();
-    if !space.is_valid(start)? {
-        return Err(PlanError::InvalidEndpoint { which: "start" });
-    }
-    if !space.is_valid(goal)? {
-        return Err(PlanError::InvalidEndpoint { which: "goal" });
-    }
+    let before = space.stats();
+    check_endpoints(space, start, goal)?;
     let mut rng = ChaCha8Rng::seed_from_u64(settings.seed);
-    let mut trees = [Tree::new(start), Tree::new(goal)];
+    let robot = space.robot();
+    let mut trees = [Tree::new(robot, start)?, Tree::new(robot, goal)?];
     let mut a = 0; // the tree that extends toward the sample this round
     let mut stats = PlanStats::default();
     let finish = |trees: &[Tree; 2], stats: &mut PlanStats, space: &S| {
         stats.nodes = trees[0].nodes.len() + trees[1].nodes.len();
-        stats.space = space.stats();
+        stats.new_nodes = stats.nodes - 2;
+        stats.space = stats_delta(space.stats(), before);
         stats.elapsed = t0.elapsed();
     };
     // Try the direct connection first.
     let direct = space.extend(start, goal, f64::INFINITY)?;
+    stats.motions_checked += 1;
     if direct.reached {
         let mut path = vec![start.to_vec()];
         path.extend(direct.path);
@@ -161,24 +129,26 @@ pub fn rrt_connect<S: ConfigSpace>(
         let Some(q_rand) = space.sample(&mut rng)? else {
             continue;
         };
-        let near = trees[a].nearest(space, &q_rand);
+        let near = trees[a].nearest(&q_rand)?;
         let ext = space.extend(&trees[a].nodes[near], &q_rand, settings.max_step)?;
+        stats.motions_checked += 1;
         if ext.path.is_empty() {
             a = 1 - a;
             continue;
         }
-        let new = trees[a].add_chain(near, ext.path);
+        let new = trees[a].add_chain(near, ext.path)?;
         let q_new = trees[a].nodes[new].clone();
         // Connect the other tree toward q_new, step after step.
         let b = 1 - a;
-        let mut from = trees[b].nearest(space, &q_new);
+        let mut from = trees[b].nearest(&q_new)?;
         loop {
             let ext = space.extend(&trees[b].nodes[from], &q_new, settings.max_step)?;
+            stats.motions_checked += 1;
             if ext.path.is_empty() {
                 break;
             }
             let reached = ext.reached;
-            from = trees[b].add_chain(from, ext.path);
+            from = trees[b].add_chain(from, ext.path)?;
             if reached {
                 let (ia, ib) = (new, from);
                 let mut first = trees[a].path_to(ia);
