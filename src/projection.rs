@@ -113,6 +113,11 @@ pub struct ProjectionBuffer {
     residual_at_q: Vec<f64>,
     /// For each tangent coordinate of a one-DOF joint: its `q` index and position limits.
     bounds: Vec<Option<(usize, f64, f64)>>,
+    /// When every joint has at most one coordinate (no floating joint): `(q index, tangent
+    /// index, lower, upper)` of each moving joint, so a step is integrated and clamped in one
+    /// pass (`Robot::integrate` and `Robot::clamp_to_limits` do the same for these joints,
+    /// through their general per-joint dispatch).
+    one_dof: Option<Vec<(usize, usize, f64, f64)>>,
     /// Tangent coordinates held at a limit during the current step.
     held: Vec<bool>,
 }
@@ -129,7 +134,22 @@ impl ProjectionBuffer {
                 bounds[j.v_index] = Some((j.q_index, j.limits[0].lower, j.limits[0].upper));
             }
         }
+        let mut one_dof = Some(Vec::with_capacity(robot.nv()));
+        for j in robot.joints() {
+            match j.kind {
+                JointKind::Revolute { .. } | JointKind::Prismatic { .. } => {
+                    if let (Some(v), Some(l)) = (one_dof.as_mut(), j.limits.first()) {
+                        v.push((j.q_index, j.v_index, l.lower, l.upper));
+                    } else {
+                        one_dof = None;
+                    }
+                }
+                JointKind::Fixed => {}
+                _ => one_dof = None,
+            }
+        }
         ProjectionBuffer {
+            one_dof,
             stack: stack.buffer(robot),
             normal: vec![0.0; m * m],
             y: vec![0.0; m],
@@ -182,9 +202,12 @@ fn damped_step_fixed<const M: usize>(buf: &mut ProjectionBuffer, lambda: f64) ->
         if *held {
             continue;
         }
-        for k in 0..M {
-            for i in k..M {
-                a[k][i] += col[i] * col[k];
+        // Whole columns, though only the lower triangle is read: the fixed-length update of
+        // a full column vectorizes, the triangle does not (callgrind). The lower-triangle
+        // entries get the same operations in the same order either way.
+        for (ak, &ck) in a.iter_mut().zip(col) {
+            for (o, &ci) in ak.iter_mut().zip(col) {
+                *o += ci * ck;
             }
         }
     }
@@ -393,7 +416,8 @@ pub fn project(
     buf.residual_at_q.resize(m, 0.0);
     robot.clamp_to_limits(q);
     let mut err = stack.evaluate(robot, q, &mut buf.stack, true)?;
-    buf.residual_at_q.copy_from_slice(buf.stack.residual.as_slice());
+    buf.residual_at_q
+        .copy_from_slice(buf.stack.residual.as_slice());
     let mut evaluations = 1;
     let mut lambda = LAMBDA_START;
     let mut iterations = 0;
@@ -437,8 +461,24 @@ pub fn project(
             if norm > settings.max_step {
                 buf.dq *= settings.max_step / norm;
             }
-            robot.integrate(q, buf.dq.as_slice(), &mut buf.q_try)?;
-            let clamped = robot.clamp_to_limits(&mut buf.q_try);
+            let clamped = match &buf.one_dof {
+                Some(coords) => {
+                    let (dq, q_try) = (buf.dq.as_slice(), &mut buf.q_try);
+                    q_try.copy_from_slice(q);
+                    let mut moved = false;
+                    for &(qi, vi, lo, hi) in coords {
+                        let x = q[qi] + dq[vi];
+                        let c = x.clamp(lo, hi);
+                        moved |= c != x;
+                        q_try[qi] = c;
+                    }
+                    moved
+                }
+                None => {
+                    robot.integrate(q, buf.dq.as_slice(), &mut buf.q_try)?;
+                    robot.clamp_to_limits(&mut buf.q_try)
+                }
+            };
             // The trial needs only the residual: the Jacobian at `q` stays in the buffer in
             // case the step is rejected, and is computed at the new point (from the link poses
             // this evaluation leaves behind) only once the step is accepted.
