@@ -15,10 +15,11 @@
 //! `CLAMBER_BENCH_LOOP=1 cargo bench --bench projection` skips criterion and prints the
 //! median and 95th-percentile wall-clock time of single projections (the same pairs, 20
 //! passes), like the `k` comparison in `reference/k-compare`, and the thread-CPU time per
-//! projection (each pass's total over its 1024 projections, median over the passes). For profilers,
+//! projection (each pass sweeps the pairs `CLAMBER_BENCH_LOOP_SWEEPS` times, default 10;
+//! its thread-CPU total divided by its projections, median over the passes). For profilers,
 //! `CLAMBER_BENCH_LOOP_PASSES` sets the passes (default 20) and `CLAMBER_BENCH_DELTAS` a
 //! comma-separated subset of the perturbation sizes, e.g.
-//! `CLAMBER_BENCH_LOOP=1 CLAMBER_BENCH_LOOP_PASSES=1 CLAMBER_BENCH_DELTAS=0.05
+//! `CLAMBER_BENCH_LOOP=1 CLAMBER_BENCH_LOOP_PASSES=1 CLAMBER_BENCH_LOOP_SWEEPS=1 CLAMBER_BENCH_DELTAS=0.05
 //! valgrind --tool=callgrind <bench binary>`.
 
 use std::hint::black_box;
@@ -110,19 +111,27 @@ fn loop_mode(robot: &Robot, set: &PairSet, buf: &mut ProjectionBuffer) {
         .ok()
         .and_then(|s| s.parse().ok())
         .unwrap_or(20);
+    // The schedstat clock advances in scheduler ticks (4 ms here): a pass sweeps the pairs
+    // `sweeps` times so that a tick is a small part of it.
+    let sweeps = std::env::var("CLAMBER_BENCH_LOOP_SWEEPS")
+        .ok()
+        .and_then(|s| s.parse().ok())
+        .unwrap_or(10);
     let mut q = vec![0.0; robot.nq()];
-    let mut times = Vec::with_capacity(passes * PAIRS);
+    let mut times = Vec::with_capacity(passes * sweeps * PAIRS);
     let mut cpu = Vec::with_capacity(passes);
     for _ in 0..passes {
         let c0 = thread_cpu_ns();
-        for (stack, start) in set.stacks.iter().zip(&set.starts) {
-            q.copy_from_slice(start);
-            let t = Instant::now();
-            let rep = project(robot, stack, &settings, black_box(&mut q), buf).unwrap();
-            times.push(t.elapsed().as_nanos() as f64);
-            black_box(rep);
+        for _ in 0..sweeps {
+            for (stack, start) in set.stacks.iter().zip(&set.starts) {
+                q.copy_from_slice(start);
+                let t = Instant::now();
+                let rep = project(robot, stack, &settings, black_box(&mut q), buf).unwrap();
+                times.push(t.elapsed().as_nanos() as f64);
+                black_box(rep);
+            }
         }
-        cpu.push((thread_cpu_ns() - c0) / PAIRS as f64);
+        cpu.push((thread_cpu_ns() - c0) / (sweeps * PAIRS) as f64);
     }
     times.sort_by(f64::total_cmp);
     cpu.sort_by(f64::total_cmp);
