@@ -196,9 +196,13 @@ fn damped_step(buf: &mut ProjectionBuffer, lambda: f64) -> bool {
 /// `J J^T + lambda I` (lower triangle used), then of its Cholesky factor.
 #[inline(always)]
 fn damped_step_fixed<const M: usize>(buf: &mut ProjectionBuffer, lambda: f64) -> bool {
-    let (cols, _) = buf.stack.jacobian.as_slice().as_chunks::<M>();
+    let jd = buf.stack.jacobian.as_slice();
+    let cols = || {
+        jd.chunks_exact(M)
+            .filter_map(|c| <&[f64; M]>::try_from(c).ok())
+    };
     let mut a = [[0.0; M]; M];
-    for (col, held) in cols.iter().zip(&buf.held) {
+    for (col, held) in cols().zip(&buf.held) {
         if *held {
             continue;
         }
@@ -217,9 +221,10 @@ fn damped_step_fixed<const M: usize>(buf: &mut ProjectionBuffer, lambda: f64) ->
     // Cholesky, column by column (the order of `cholesky_in_place`).
     for j in 0..M {
         for k in 0..j {
-            let f = a[k][j];
-            for i in j..M {
-                a[j][i] -= f * a[k][i];
+            let ak = a[k];
+            let f = ak[j];
+            for (x, y) in a[j][j..].iter_mut().zip(&ak[j..]) {
+                *x -= f * y;
             }
         }
         let d = a[j][j];
@@ -229,8 +234,8 @@ fn damped_step_fixed<const M: usize>(buf: &mut ProjectionBuffer, lambda: f64) ->
         }
         let d = d.sqrt();
         a[j][j] = d;
-        for i in j + 1..M {
-            a[j][i] /= d;
+        for x in &mut a[j][j + 1..] {
+            *x /= d;
         }
     }
     let mut y = [0.0; M];
@@ -252,7 +257,7 @@ fn damped_step_fixed<const M: usize>(buf: &mut ProjectionBuffer, lambda: f64) ->
         }
         y[i] = (y[i] - dot) / a[i][i];
     }
-    for ((dq, col), held) in buf.dq.as_mut_slice().iter_mut().zip(cols).zip(&buf.held) {
+    for ((dq, col), held) in buf.dq.as_mut_slice().iter_mut().zip(cols()).zip(&buf.held) {
         *dq = if *held {
             0.0
         } else {
