@@ -181,8 +181,8 @@ const HOLD_PASSES: usize = 4;
 ///
 /// The row counts of the common stacks (a position grip, an axis grip, a point grip) get
 /// their own copies on fixed-size arrays ([`damped_step_fixed`]): the loops unroll and the
-/// bounds checks go away, a quarter of the instructions of the slice version for 6 rows
-/// (callgrind). Both do the same operations in the same order.
+/// bounds checks go away, 1,400 instead of 2,010 instructions per 6-row step (callgrind).
+/// Both do the same operations in the same order.
 fn damped_step(buf: &mut ProjectionBuffer, lambda: f64) -> bool {
     match buf.stack.jacobian.nrows() {
         3 => damped_step_fixed::<3>(buf, lambda),
@@ -206,9 +206,10 @@ fn damped_step_fixed<const M: usize>(buf: &mut ProjectionBuffer, lambda: f64) ->
         if *held {
             continue;
         }
-        // Whole columns, though only the lower triangle is read: the fixed-length update of
-        // a full column vectorizes, the triangle does not (callgrind). The lower-triangle
-        // entries get the same operations in the same order either way.
+        // Whole columns, though only the lower triangle is read: fixed-length inner loops,
+        // slightly fewer instructions than the triangle (callgrind: 650 against 706 per
+        // step for 6 x 7). The lower-triangle entries get the same operations in the same
+        // order either way.
         for (ak, &ck) in a.iter_mut().zip(col) {
             for (o, &ci) in ak.iter_mut().zip(col) {
                 *o += ci * ck;

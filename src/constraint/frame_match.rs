@@ -116,13 +116,12 @@ pub(crate) fn perpendicular_basis(h: &Vector3<f64>) -> (Vector3<f64>, Vector3<f6
 
 /// `log(R_b^T R_a)`, the rotation vector taking frame `b`'s axes to frame `a`'s.
 ///
-/// Near the identity (angle below 0.01 rad, where projection spends most of its evaluations)
+/// Near the identity (angle below 0.01 rad: the last steps of a projection)
 /// from the skew part alone: with `R = exp([phi]x)`, `vee(R - R^T) / 2 = sin(theta) phi /
 /// theta`, and `theta / sin(theta) = asin(s) / s = 1 + s^2/6 + 3 s^4/40 + 5 s^6/112 +
-/// 35 s^8/1152 + ...` (Maclaurin series of arcsine, e.g. Abramowitz & Stegun 4.4.40) with
+/// 35 s^8/1152 + ...` (Maclaurin series of arcsine; Abramowitz & Stegun 4.4.40, number from memory) with
 /// `s = sin(theta)`; the next term is below 1e-21 there. This skips the quaternion and the
-/// `atan2` of [`rotation_log`] (about a tenth of a residual evaluation, callgrind), which
-/// handles every other angle.
+/// `atan2` of [`rotation_log`], which handles every other angle.
 #[inline]
 pub(crate) fn relative_rotation_log(rb: &Matrix3<f64>, ra: &Matrix3<f64>) -> Vector3<f64> {
     let r = rb.tr_mul(ra);
