@@ -20,6 +20,7 @@ pub mod planner;
 pub mod projection;
 pub mod report;
 pub mod robot_file;
+pub mod route;
 pub mod sampling;
 pub mod scenario;
 pub mod scene;
