@@ -18,6 +18,7 @@ pub mod math;
 pub mod model;
 pub mod planner;
 pub mod projection;
+pub mod reach;
 pub mod report;
 pub mod robot_file;
 pub mod route;
