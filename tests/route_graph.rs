@@ -3,36 +3,24 @@
 
 mod route_scene;
 
-use clamber::route::graph::{reach_bound, segment_distance, StanceGraph};
+use clamber::reach::{effector_span, segment_distance};
+use clamber::route::graph::StanceGraph;
 use clamber::scene::Stance;
 use nalgebra::Point3;
 
-/// Reach bound of brachia between its two grip frames, summed by hand from
-/// robots/brachia.toml (joint `xyz` offsets and the effectors' grip offsets): per arm
-/// joint2 0.085, joint4 |(0.017, 0, 0.289)|, joint5 |(-0.017, 0, 0.136)|, joint6 0.119,
-/// joint7 0.068, palm mount 0.034, grip 0.085 (joint3 is at the origin of link2); the two
-/// shoulders (joint1) are 0.30 m apart in the torso frame.
-pub fn brachia_bound_by_hand() -> f64 {
-    let arm = 0.085
-        + (0.017f64.powi(2) + 0.289f64.powi(2)).sqrt()
-        + (0.017f64.powi(2) + 0.136f64.powi(2)).sqrt()
-        + 0.119
-        + 0.068
-        + 0.034
-        + 0.085;
-    2.0 * arm + 0.30
-}
+use route_scene::brachia_bound_by_hand;
 
 #[test]
 fn reach_bound_matches_the_hand_sum_of_link_offsets() {
     let robot = route_scene::brachia();
-    let b = reach_bound(&robot, "left_gripper", "right_gripper").unwrap();
+    let b = effector_span(&robot, "left_gripper", "right_gripper").unwrap();
     let hand = brachia_bound_by_hand();
     assert!((b - hand).abs() < 1e-12, "bound {b} vs hand sum {hand}");
-    let back = reach_bound(&robot, "right_gripper", "left_gripper").unwrap();
+    let back = effector_span(&robot, "right_gripper", "left_gripper").unwrap();
     assert!((b - back).abs() < 1e-12, "the bound is symmetric");
-    // A floating joint between an effector and the root: unbounded.
-    assert!(clamber::route::graph::effector_root_bound(&robot, "left_gripper").is_none());
+    // The stance graph uses this bound for the pair, and no root anchor (free-flying).
+    let g = StanceGraph::new(&robot, &route_scene::bars_scene(&[0.0]));
+    assert_eq!(g.pair_bound[0][1], Some(b));
 }
 
 #[test]
@@ -43,7 +31,7 @@ fn reach_bound_is_never_exceeded_by_sampled_configurations() {
     use clamber::math::Pose;
     use rand::SeedableRng;
     let robot = route_scene::brachia();
-    let b = reach_bound(&robot, "left_gripper", "right_gripper").unwrap();
+    let b = effector_span(&robot, "left_gripper", "right_gripper").unwrap();
     let l = robot.effector("left_gripper").unwrap().clone();
     let r = robot.effector("right_gripper").unwrap().clone();
     let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(3);
@@ -65,17 +53,37 @@ fn reach_bound_is_never_exceeded_by_sampled_configurations() {
 fn segment_distance_closed_form_cases() {
     let p = |x: f64, y: f64, z: f64| Point3::new(x, y, z);
     // Parallel bars 0.5 apart.
-    let d = segment_distance(p(0., -0.3, 0.), p(0., 0.3, 0.), p(0.5, -0.3, 0.), p(0.5, 0.3, 0.));
+    let d = segment_distance(
+        &p(0., -0.3, 0.),
+        &p(0., 0.3, 0.),
+        &p(0.5, -0.3, 0.),
+        &p(0.5, 0.3, 0.),
+    );
     assert!((d - 0.5).abs() < 1e-15);
     // Crossing skew segments at heights 0 and 1: distance 1.
-    let d = segment_distance(p(-1., 0., 0.), p(1., 0., 0.), p(0., -1., 1.), p(0., 1., 1.));
+    let d = segment_distance(
+        &p(-1., 0., 0.),
+        &p(1., 0., 0.),
+        &p(0., -1., 1.),
+        &p(0., 1., 1.),
+    );
     assert!((d - 1.0).abs() < 1e-15);
     // Collinear, end to end with a 0.25 gap.
-    let d = segment_distance(p(0., 0., 0.), p(1., 0., 0.), p(1.25, 0., 0.), p(2., 0., 0.));
+    let d = segment_distance(
+        &p(0., 0., 0.),
+        &p(1., 0., 0.),
+        &p(1.25, 0., 0.),
+        &p(2., 0., 0.),
+    );
     assert!((d - 0.25).abs() < 1e-15);
     // A point against a segment: the perpendicular foot lies beyond the end, so the
     // distance is to the end point (3-4-5 triangle).
-    let d = segment_distance(p(4., 3., 0.), p(4., 3., 0.), p(-1., 0., 0.), p(0., 0., 0.));
+    let d = segment_distance(
+        &p(4., 3., 0.),
+        &p(4., 3., 0.),
+        &p(-1., 0., 0.),
+        &p(0., 0., 0.),
+    );
     assert!((d - 5.0).abs() < 1e-15);
 }
 
@@ -92,7 +100,10 @@ fn reach_test_prunes_exactly_beyond_the_bound() {
     assert!((p.excess - 0.01).abs() < 1e-12, "excess {}", p.excess);
     // A single grip is never released by a free-flying robot.
     let (edges, _) = g.neighbours(&s, scene.holds.len());
-    assert!(edges.iter().all(|e| e.grab), "no release from the last grip");
+    assert!(
+        edges.iter().all(|e| e.grab),
+        "no release from the last grip"
+    );
     let two = s.clone().with("right_gripper", 1);
     let (edges, _) = g.neighbours(&two, scene.holds.len());
     assert_eq!(edges.len(), 2, "two releases, no free effector: {edges:?}");

@@ -4,12 +4,11 @@
 //!
 //! Reach pruning: an effector can grab hold `H` only if `H` is within reach of every hold the
 //! other effectors grip. The reach bound between two effectors is computed from the robot's
-//! link geometry: the length of the kinematic-tree path between their grip frames (triangle
-//! inequality; revolute joints turn about their origin and add nothing, prismatic joints add
-//! their largest travel; a floating joint on the path makes it unbounded). A fixed-base robot
-//! also has its root as an anchor. The hold distance is the exact distance between the hold
-//! segments (a point hold is a segment of length 0), so pruning never removes a switch that
-//! could be feasible.
+//! link geometry ([`crate::reach::effector_span`]: the length of the kinematic-tree path
+//! between their grip frames). A fixed-base robot also has its root as an anchor
+//! ([`crate::reach::link_point_bound`]). The hold distance is the exact distance between the
+//! hold segments (a point hold is a segment of length 0), so pruning never removes a switch
+//! that could be feasible.
 //!
 //! Rule for free-flying robots (a floating joint anywhere in the tree): at least one grip at
 //! all times, so the empty stance is never a node (common practice for free-flying
@@ -19,9 +18,15 @@ use std::collections::BTreeMap;
 
 use nalgebra::{Point3, Vector3};
 
-use crate::model::{JointKind, LinkId, Robot};
+use crate::model::{JointKind, Robot};
+use crate::reach::{effector_span, hold_segment, link_point_bound, segment_distance};
 use crate::scenario::Goal;
-use crate::scene::{HoldKind, Scene, Stance};
+use crate::scene::{Scene, Stance};
+
+/// A finite bound, or `None`.
+fn finite(b: Option<f64>) -> Option<f64> {
+    b.filter(|v| v.is_finite())
+}
 
 /// One switch: from one stance to another, `effector` grabbing (`grab == true`) or releasing
 /// `hold`.
@@ -75,13 +80,26 @@ impl StanceGraph {
         for i in 0..n {
             for j in 0..n {
                 if i != j {
-                    pair_bound[i][j] = reach_bound(robot, &effectors[i], &effectors[j]);
+                    pair_bound[i][j] =
+                        finite(effector_span(robot, &effectors[i], &effectors[j]).ok());
                 }
             }
         }
         let root_bound = effectors
             .iter()
-            .map(|e| effector_root_bound(robot, e))
+            .map(|e| {
+                let ef = robot.effector(e)?;
+                finite(
+                    link_point_bound(
+                        robot,
+                        0,
+                        Vector3::zeros(),
+                        ef.link,
+                        ef.grip.translation.vector,
+                    )
+                    .ok(),
+                )
+            })
             .collect();
         let hold_segments = scene.holds.iter().map(hold_segment).collect();
         let free_flying = robot
@@ -107,7 +125,7 @@ impl StanceGraph {
             self.hold_segments.get(a).copied().flatten(),
             self.hold_segments.get(b).copied().flatten(),
         ) {
-            (Some(sa), Some(sb)) => segment_distance(sa.0, sa.1, sb.0, sb.1),
+            (Some(sa), Some(sb)) => segment_distance(&sa.0, &sa.1, &sb.0, &sb.1),
             _ => 0.0,
         }
     }
@@ -151,7 +169,8 @@ impl StanceGraph {
             if let (Some(bound), Some(Some((a, b)))) =
                 (self.root_bound[e], self.hold_segments.get(hold).copied())
             {
-                let distance = segment_distance(a, b, Point3::origin(), Point3::origin());
+                let o = Point3::origin();
+                let distance = segment_distance(&a, &b, &o, &o);
                 let excess = distance - bound;
                 if excess > 0.0 && worst.as_ref().is_none_or(|w| excess > w.excess) {
                     worst = Some(PrunedGrab {
@@ -207,8 +226,9 @@ impl StanceGraph {
         (edges, pruned)
     }
 
-    /// Base weight of a switch: 1 per switch plus the distance the grabbing effector's hold
-    /// lies from the holds kept (so nearer holds are tried first). Releases cost 1.
+    /// Base weight of a switch: 1 per switch plus `d + d^2` for the distance `d` (metres) the
+    /// grabbed hold lies from the holds kept (long reaches, near the edge of the workspace,
+    /// fail more often, so they cost more than their length). Releases cost 1.
     pub fn base_weight(&self, edge: &SwitchEdge) -> f64 {
         if !edge.grab {
             return 1.0;
@@ -219,7 +239,7 @@ impl StanceGraph {
             .values()
             .map(|&h| self.hold_distance(h, edge.hold))
             .fold(0.0, f64::max);
-        1.0 + d
+        1.0 + d + d * d
     }
 
     /// Whether `stance` satisfies a goal that is about stances (`Stance`, `Grip`); `None` for
@@ -260,134 +280,6 @@ impl StanceGraph {
         }
         best
     }
-}
-
-/// The hold as a segment (a point hold: both ends equal); `None` for a handle.
-fn hold_segment(h: &crate::scene::Hold) -> Option<(Point3<f64>, Point3<f64>)> {
-    match &h.kind {
-        HoldKind::Point { pose, .. } => {
-            let p = Point3::from(pose.translation.vector);
-            Some((p, p))
-        }
-        HoldKind::Bar { start, end, .. } => Some((*start, *end)),
-        _ => None,
-    }
-}
-
-/// The chain of links from `link` up to the root (inclusive), `link` first.
-fn chain_to_root(robot: &Robot, link: LinkId) -> Vec<LinkId> {
-    let mut out = vec![link];
-    let mut l = link;
-    while let Some(p) = robot.parent_link(l) {
-        out.push(p);
-        l = p;
-    }
-    out
-}
-
-/// Length bound of the path from a point `entry` on link `from` up to link `to` (an
-/// ancestor): returns the bound and the point where the path enters `to` (in `to`'s frame).
-/// `None` if a floating joint lies on the way or a prismatic joint is unbounded.
-fn climb(
-    robot: &Robot,
-    chain: &[LinkId],
-    entry: Vector3<f64>,
-    to: LinkId,
-) -> Option<(f64, Vector3<f64>)> {
-    let mut length = 0.0;
-    let mut e = entry;
-    for &l in chain {
-        if l == to {
-            return Some((length, e));
-        }
-        let j = &robot.joints()[robot.links()[l].parent_joint?];
-        // From the entry point to the link's origin (the joint frame's origin).
-        length += e.norm();
-        match j.kind {
-            JointKind::Floating => return None,
-            JointKind::Prismatic { .. } => {
-                let lim = j.limits.first()?;
-                let travel = lim.lower.abs().max(lim.upper.abs());
-                if !travel.is_finite() {
-                    return None;
-                }
-                length += travel;
-            }
-            _ => {}
-        }
-        e = j.origin.translation.vector;
-    }
-    None
-}
-
-/// Upper bound on the distance between the grip frames of effectors `a` and `b` over every
-/// configuration (metres), from the link geometry of the tree path between them. `None` when
-/// the path crosses a floating joint or an unbounded prismatic joint.
-pub fn reach_bound(robot: &Robot, a: &str, b: &str) -> Option<f64> {
-    let ea = robot.effector(a)?;
-    let eb = robot.effector(b)?;
-    let ca = chain_to_root(robot, ea.link);
-    let cb = chain_to_root(robot, eb.link);
-    let lca = *ca.iter().find(|l| cb.contains(l))?;
-    let (la, pa) = climb(robot, &ca, ea.grip.translation.vector, lca)?;
-    let (lb, pb) = climb(robot, &cb, eb.grip.translation.vector, lca)?;
-    Some(la + lb + (pa - pb).norm())
-}
-
-/// Upper bound on the distance from effector `e`'s grip frame to the root link's origin.
-pub fn effector_root_bound(robot: &Robot, e: &str) -> Option<f64> {
-    let ef = robot.effector(e)?;
-    let chain = chain_to_root(robot, ef.link);
-    let (l, p) = climb(robot, &chain, ef.grip.translation.vector, 0)?;
-    Some(l + p.norm())
-}
-
-/// Smallest distance between segments `p1 q1` and `p2 q2` (either may have length zero).
-/// Closest points of two segments: C. Ericson, "Real-Time Collision Detection" (2005),
-/// section 5.1.9.
-pub fn segment_distance(p1: Point3<f64>, q1: Point3<f64>, p2: Point3<f64>, q2: Point3<f64>) -> f64 {
-    let d1 = q1 - p1;
-    let d2 = q2 - p2;
-    let r = p1 - p2;
-    let a = d1.dot(&d1);
-    let e = d2.dot(&d2);
-    let f = d2.dot(&r);
-    const EPS: f64 = 1e-18;
-    let (s, t);
-    if a <= EPS && e <= EPS {
-        return r.norm();
-    }
-    if a <= EPS {
-        s = 0.0;
-        t = (f / e).clamp(0.0, 1.0);
-    } else {
-        let c = d1.dot(&r);
-        if e <= EPS {
-            t = 0.0;
-            s = (-c / a).clamp(0.0, 1.0);
-        } else {
-            let b = d1.dot(&d2);
-            let denom = a * e - b * b;
-            let mut s0 = if denom > EPS * a * e {
-                ((b * f - c * e) / denom).clamp(0.0, 1.0)
-            } else {
-                0.0
-            };
-            let mut t0 = (b * s0 + f) / e;
-            if t0 < 0.0 {
-                t0 = 0.0;
-                s0 = (-c / a).clamp(0.0, 1.0);
-            } else if t0 > 1.0 {
-                t0 = 1.0;
-                s0 = ((b - c) / a).clamp(0.0, 1.0);
-            }
-            s = s0;
-            t = t0;
-        }
-    }
-    let c1 = p1 + d1 * s;
-    let c2 = p2 + d2 * t;
-    (c1 - c2).norm()
 }
 
 /// Weights of the switches, raised by failures (the feedback of the search).

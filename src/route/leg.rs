@@ -43,7 +43,7 @@ pub(crate) fn plan_leg(
         ctx.verify_resolution(),
     )
     .map_err(crate::planner::PlanError::from)?;
-    let remaining = ctx.remaining();
+    let remaining = ctx.remaining().min(ctx.settings.leg_time_limit);
     let settings = RrtSettings::new(
         ctx.settings.leg_step,
         ctx.settings.leg_samples,

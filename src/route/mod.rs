@@ -66,6 +66,9 @@ pub struct RouteSettings {
     pub leg_samples: usize,
     /// Longest extension of the leg planner (joint-space distance).
     pub leg_step: f64,
+    /// Wall-clock limit of one leg (a failing leg is a failed switch attempt; results that
+    /// hit it depend on the machine's speed).
+    pub leg_time_limit: Duration,
     /// Largest residual allowed *between* waypoints of a leg, where a controller moves along
     /// straight joint-space segments (metres and radians). The waypoints themselves and every
     /// switch pose hold the scenario's tolerance.
@@ -84,8 +87,9 @@ impl Default for RouteSettings {
             seed_spread: 0.4,
             grip_scan: 5,
             min_clearance: 0.005,
-            leg_samples: 1500,
+            leg_samples: 400,
             leg_step: 0.5,
+            leg_time_limit: Duration::from_secs(2),
             path_tolerance: 1e-3,
             timing_grid: 4,
         }
@@ -382,7 +386,8 @@ pub fn plan_route(scenario: &Scenario, settings: &RouteSettings) -> Result<Route
         let graph = search.graph.clone();
         let goal = scenario.goal.clone();
         let is_goal = |s: &Stance| graph.is_goal(s, &goal).unwrap_or(false);
-        let outcome = search.run(&is_goal)?;
+        let progress = |s: &Stance| graph.distance_to_goal(s, &goal);
+        let outcome = search.run(&is_goal, &progress)?;
         let Some(goal_stance) = outcome.goal.clone() else {
             return Err(RouteError::NoRoute(Box::new(explain::explain(
                 scenario, &graph, &outcome,

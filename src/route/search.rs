@@ -49,7 +49,7 @@ pub(crate) struct EdgeRecord {
 }
 
 /// Counts of the search's work.
-#[derive(Clone, Copy, Debug, Default, PartialEq, Eq, serde::Serialize)]
+#[derive(Clone, Copy, Debug, Default, PartialEq, serde::Serialize)]
 pub struct SearchStats {
     /// Shortest-path searches run.
     pub searches: usize,
@@ -63,6 +63,11 @@ pub struct SearchStats {
     pub dropped_switches: usize,
     /// True if the time limit ended the search.
     pub timed_out: bool,
+    /// Seconds spent finding switch poses and planning legs (not written: machine-dependent).
+    #[serde(skip)]
+    pub switch_pose_seconds: f64,
+    #[serde(skip)]
+    pub leg_seconds: f64,
 }
 
 pub(crate) struct SearchOutcome {
@@ -127,13 +132,27 @@ impl<'c, 'a> Search<'c, 'a> {
         edges
     }
 
-    /// Shortest candidate sequence from `start` to a goal stance under the current weights.
+    /// Shortest candidate sequence from `start` to a goal stance under the current weights,
+    /// and whether it ends at a goal. When no goal stance can be reached in the graph, the
+    /// sequence ends at the stance closest to the goal (`progress`, metres; ties: the cheaper),
+    /// so the search still gets as far as it can and the explanation can say where it stuck.
     fn candidate(
         &mut self,
         start: &Stance,
         reached: &BTreeMap<Stance, Reached>,
         is_goal: &dyn Fn(&Stance) -> bool,
-    ) -> Option<Vec<Stance>> {
+        progress: &dyn Fn(&Stance) -> f64,
+    ) -> Option<(Vec<Stance>, bool)> {
+        let path_to = |prev: &BTreeMap<Stance, Stance>, mut s: Stance| {
+            let mut seq = vec![s.clone()];
+            while let Some(p) = prev.get(&s) {
+                seq.push(p.clone());
+                s = p.clone();
+            }
+            seq.reverse();
+            seq
+        };
+        let mut closest: Option<(f64, f64, Stance)> = None;
         let mut dist: BTreeMap<Stance, f64> = BTreeMap::new();
         let mut prev: BTreeMap<Stance, Stance> = BTreeMap::new();
         let mut heap = BinaryHeap::new();
@@ -148,14 +167,14 @@ impl<'c, 'a> Search<'c, 'a> {
                 continue;
             }
             if is_goal(&stance) {
-                let mut seq = vec![stance.clone()];
-                let mut s = stance;
-                while let Some(p) = prev.get(&s) {
-                    seq.push(p.clone());
-                    s = p.clone();
-                }
-                seq.reverse();
-                return Some(seq);
+                return Some((path_to(&prev, stance), true));
+            }
+            let d = progress(&stance);
+            if closest
+                .as_ref()
+                .is_none_or(|(bd, bc, _)| d < *bd || (d == *bd && cost < *bc))
+            {
+                closest = Some((d, cost, stance.clone()));
             }
             for e in self.edges(&stance) {
                 if self.dropped.contains(&e) || done.contains(&e.to) {
@@ -181,7 +200,7 @@ impl<'c, 'a> Search<'c, 'a> {
                 }
             }
         }
-        None
+        closest.map(|(_, _, s)| (path_to(&prev, s), false))
     }
 
     /// Attempt one switch from the reached stance `from` (configuration `q`).
@@ -207,11 +226,16 @@ impl<'c, 'a> Search<'c, 'a> {
                 },
             }));
         }
-        let pose = match finder.grab(&edge.from, q, &edge.effector, edge.hold, rng)? {
+        let t = std::time::Instant::now();
+        let found = finder.grab(&edge.from, q, &edge.effector, edge.hold, rng)?;
+        stats.switch_pose_seconds += t.elapsed().as_secs_f64();
+        let pose = match found {
             Ok(p) => p,
             Err(f) => return Ok(Err(f)),
         };
+        let t = std::time::Instant::now();
         let leg = plan_leg(self.ctx, &edge.from, q, &pose.q, rng.random())?;
+        stats.leg_seconds += t.elapsed().as_secs_f64();
         stats.leg_samples += leg.samples;
         match leg.path {
             Some(path) => Ok(Ok(Arrival {
@@ -231,6 +255,7 @@ impl<'c, 'a> Search<'c, 'a> {
     pub(crate) fn run(
         mut self,
         is_goal: &dyn Fn(&Stance) -> bool,
+        progress: &dyn Fn(&Stance) -> f64,
     ) -> Result<SearchOutcome, RouteError> {
         let ctx = self.ctx;
         let start = ctx.start.stance.clone();
@@ -259,7 +284,7 @@ impl<'c, 'a> Search<'c, 'a> {
                 break;
             }
             stats.searches += 1;
-            let Some(seq) = self.candidate(&start, &reached, is_goal) else {
+            let Some((seq, to_goal)) = self.candidate(&start, &reached, is_goal, progress) else {
                 exhausted = true;
                 break;
             };
@@ -268,7 +293,11 @@ impl<'c, 'a> Search<'c, 'a> {
                 .rposition(|s| reached.contains_key(s))
                 .unwrap_or(0);
             if k + 1 == seq.len() {
-                goal = seq.last().cloned();
+                if to_goal {
+                    goal = seq.last().cloned();
+                } else {
+                    exhausted = true; // as close to the goal as the graph allows
+                }
                 break;
             }
             let (from, to) = (&seq[k], &seq[k + 1]);

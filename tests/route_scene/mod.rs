@@ -121,3 +121,68 @@ pub fn scenario(xs: &[f64], goal: Goal, seed: u64) -> Scenario {
         },
     }
 }
+
+/// Reach bound of brachia between its two grip frames, summed by hand from
+/// robots/brachia.toml (joint `xyz` offsets and the effectors' grip offsets): per arm
+/// joint2 0.085, joint4 |(0.017, 0, 0.289)|, joint5 |(-0.017, 0, 0.136)|, joint6 0.119,
+/// joint7 0.068, palm mount 0.034, grip 0.085 (joint3 is at the origin of link2); the two
+/// shoulders (joint1) are 0.30 m apart in the torso frame.
+pub fn brachia_bound_by_hand() -> f64 {
+    let arm = 0.085
+        + (0.017f64.powi(2) + 0.289f64.powi(2)).sqrt()
+        + (0.017f64.powi(2) + 0.136f64.powi(2)).sqrt()
+        + 0.119
+        + 0.068
+        + 0.034
+        + 0.085;
+    2.0 * arm + 0.30
+}
+
+/// Errors of effector `effector`'s grip frame on hold `hold` at `q`, computed here from
+/// forward kinematics and the hold's geometry (independent of the constraint code):
+/// (distance of the grip point from the bar segment, orientation error in radians as the
+/// Frobenius norm of R_grip - R_bar over sqrt 2, which is the angle to first order; for a bar
+/// free to turn, the angle between the grip x axis and the bar axis).
+pub fn grip_errors(
+    robot: &Robot,
+    scene: &Scene,
+    q: &[f64],
+    effector: &str,
+    hold: usize,
+) -> (f64, f64) {
+    use clamber::scene::HoldKind;
+    let mut poses = vec![Pose::identity(); robot.links().len()];
+    forward_kinematics(robot, q, &mut poses).unwrap();
+    let e = robot.effector(effector).unwrap();
+    let g = poses[e.link] * e.grip;
+    let p = g.translation.vector;
+    let r = g.rotation;
+    match &scene.holds[hold].kind {
+        HoldKind::Bar {
+            start,
+            end,
+            approach,
+            turn_free,
+        } => {
+            let axis = (end - start).normalize();
+            let len = (end - start).norm();
+            let t = axis.dot(&(p - start.coords)).clamp(0.0, len);
+            let foot = start.coords + axis * t;
+            let dist = (p - foot).norm();
+            let x = r.matrix().column(0).into_owned();
+            if *turn_free {
+                return (dist, x.cross(&axis).norm());
+            }
+            let z = (approach - axis * axis.dot(approach)).normalize();
+            let y = z.cross(&axis);
+            let bar = nalgebra::Matrix3::from_columns(&[axis, y, z]);
+            (dist, (r.matrix() - bar).norm() / 2f64.sqrt())
+        }
+        HoldKind::Point { pose, .. } => {
+            let d = (p - pose.translation.vector).norm();
+            let a = (r.matrix() - pose.rotation.matrix()).norm() / 2f64.sqrt();
+            (d, a)
+        }
+        _ => panic!("handles are not used in these tests"),
+    }
+}
