@@ -7,15 +7,14 @@
 //!
 //! A move of effector `e` from hold `a` to hold `b` while effector `o` keeps hold `h`: first
 //! a pose on `{o: h, e: a}` (projected from the scenario's start, its floating base shifted
-//! to the holds), then the switch pose grabbing `b` from `{o: h}`, then a leg inside `{o: h}`
-//! between the two.
+//! to the holds), then, from there, the switch pose grabbing `b` from `{o: h}`, checked by
+//! the verifier. The leg between the two is route planning's business and not checked here.
 
 use rand::SeedableRng;
 use rand_chacha::ChaCha8Rng;
 use serde::Serialize;
 
 use super::graph::StanceGraph;
-use super::leg::plan_leg;
 use super::switch::{SwitchFailure, SwitchFinder};
 use super::{with_context, Context, RouteError, RouteSettings};
 use crate::model::JointKind;
@@ -28,7 +27,7 @@ use crate::verify::{verify_path, VerifySettings};
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
 #[serde(rename_all = "snake_case")]
 pub enum Verdict {
-    /// A verified switch pose and a leg to it were found.
+    /// A verified switch pose was found.
     Feasible,
     /// Ruled out by the reach bound (certain: no configuration can make it).
     OutOfReach,
@@ -238,7 +237,6 @@ pub fn check_feasibility(
                             match finder.grab(&anchor, qa, e, b, &mut rng)? {
                                 Err(f) => entry.reason = Some(f),
                                 Ok(pose) => {
-                                    let leg = plan_leg(ctx, &anchor, qa, &pose.q, ctx.limits.seed)?;
                                     let target = anchor.clone().with(e.clone(), b);
                                     let stack =
                                         target.constraints(ctx.robot, ctx.scene, ctx.constant)?;
@@ -249,13 +247,7 @@ pub fn check_feasibility(
                                         &[pose.q.clone()],
                                         &pose_vs,
                                     )?;
-                                    if leg.path.is_none() {
-                                        entry.reason = Some(SwitchFailure::NoLeg {
-                                            stance: anchor.describe(ctx.scene),
-                                            samples: leg.samples,
-                                            clearance: pose.clearance,
-                                        });
-                                    } else if rep.passed() {
+                                    if rep.passed() {
                                         entry.verdict = Verdict::Feasible;
                                         entry.reach_margin = Some(pose.reach_margin);
                                         entry.clearance = Some(pose.clearance);

@@ -2,7 +2,12 @@
 //! (`planner::rrt_connect`) in the constrained C-space of the stance's constraint stack (plus
 //! the scenario's constant constraints); RRT-Connect tries the direct manifold walk first.
 
-use crate::cspace::ConstrainedSpace;
+use std::time::Instant;
+
+use rand::Rng;
+
+use crate::cspace::{CSpaceError, CSpaceStats, ConfigSpace, ConstrainedSpace, Extension};
+use crate::model::Robot;
 use crate::planner::{rrt_connect, PlanError, RrtSettings};
 use crate::scene::Stance;
 
@@ -35,7 +40,7 @@ pub(crate) fn plan_leg(
         });
     }
     let stack = stance.constraints(robot, ctx.scene, ctx.constant)?;
-    let mut space = ConstrainedSpace::new(
+    let space = ConstrainedSpace::new(
         robot,
         &stack,
         ctx.collision,
@@ -50,6 +55,10 @@ pub(crate) fn plan_leg(
         remaining,
         seed,
     )?;
+    let mut space = WithDeadline {
+        inner: space,
+        deadline: Instant::now() + remaining,
+    };
     match rrt_connect(&mut space, a, b, &settings) {
         Ok(plan) => Ok(LegPlan {
             samples: plan.stats.samples,
@@ -62,5 +71,48 @@ pub(crate) fn plan_leg(
             samples: 0,
         }),
         Err(e) => Err(e.into()),
+    }
+}
+
+/// A C-space that stops moving at a deadline: after it, extensions return nothing and
+/// samples fail, so every loop of the planner ends (the planner checks its time limit only
+/// between samples; its connect step repeats extensions while they make progress).
+struct WithDeadline<S> {
+    inner: S,
+    deadline: Instant,
+}
+
+impl<S: ConfigSpace> ConfigSpace for WithDeadline<S> {
+    fn robot(&self) -> &Robot {
+        self.inner.robot()
+    }
+    fn sample<R: Rng + ?Sized>(&mut self, rng: &mut R) -> Result<Option<Vec<f64>>, CSpaceError> {
+        if Instant::now() >= self.deadline {
+            return Ok(None);
+        }
+        self.inner.sample(rng)
+    }
+    fn distance(&self, a: &[f64], b: &[f64]) -> f64 {
+        self.inner.distance(a, b)
+    }
+    fn extend(
+        &mut self,
+        from: &[f64],
+        to: &[f64],
+        max_distance: f64,
+    ) -> Result<Extension, CSpaceError> {
+        if Instant::now() >= self.deadline {
+            return Ok(Extension {
+                path: Vec::new(),
+                reached: false,
+            });
+        }
+        self.inner.extend(from, to, max_distance)
+    }
+    fn is_valid(&mut self, q: &[f64]) -> Result<bool, CSpaceError> {
+        self.inner.is_valid(q)
+    }
+    fn stats(&self) -> CSpaceStats {
+        self.inner.stats()
     }
 }

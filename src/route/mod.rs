@@ -89,7 +89,7 @@ impl Default for RouteSettings {
             min_clearance: 0.005,
             leg_samples: 400,
             leg_step: 0.5,
-            leg_time_limit: Duration::from_secs(2),
+            leg_time_limit: Duration::from_secs(6),
             path_tolerance: 1e-3,
             timing_grid: 4,
         }
