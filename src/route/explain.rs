@@ -104,11 +104,25 @@ pub(crate) fn explain(
             },
         ));
     }
-    // Grabs the reach test ruled out from the furthest stances, toward the goal.
-    for (s, pruned) in &outcome.pruned {
-        if dist(s) > furthest_d + 1e-9 {
-            continue;
+    // Grabs the reach test ruled out from the furthest stances (and the stances one release
+    // away from them, which need no pose search), toward the goal.
+    let mut near: Vec<Stance> = Vec::new();
+    for s in outcome
+        .reached
+        .keys()
+        .filter(|s| dist(s) <= furthest_d + 1e-9)
+    {
+        near.push(s.clone());
+        if !graph.free_flying || s.grips.len() > 1 {
+            for e in s.grips.keys() {
+                near.push(s.clone().without(e));
+            }
         }
+    }
+    near.sort();
+    near.dedup();
+    for s in &near {
+        let (_, pruned) = graph.neighbours(s, scene.holds.len());
         let mut toward: Vec<_> = pruned
             .iter()
             .filter(|p| !outcome.reached.contains_key(&p.edge.to))

@@ -18,7 +18,7 @@ use std::collections::{BTreeMap, BTreeSet, BinaryHeap};
 use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 
-use super::graph::{EdgeWeights, PrunedGrab, StanceGraph, SwitchEdge};
+use super::graph::{EdgeWeights, StanceGraph, SwitchEdge};
 use super::leg::plan_leg;
 use super::switch::{SwitchFailure, SwitchFinder, SwitchPose};
 use super::{Context, RouteError};
@@ -74,7 +74,6 @@ pub(crate) struct SearchOutcome {
     pub reached: BTreeMap<Stance, Reached>,
     pub goal: Option<Stance>,
     pub records: BTreeMap<SwitchEdge, EdgeRecord>,
-    pub pruned: BTreeMap<Stance, Vec<PrunedGrab>>,
     pub stats: SearchStats,
     /// True when the search ran out of candidate sequences.
     pub exhausted: bool,
@@ -107,7 +106,6 @@ pub(crate) struct Search<'c, 'a> {
     weights: EdgeWeights,
     dropped: BTreeSet<SwitchEdge>,
     neighbours: BTreeMap<Stance, Vec<SwitchEdge>>,
-    pruned: BTreeMap<Stance, Vec<PrunedGrab>>,
 }
 
 impl<'c, 'a> Search<'c, 'a> {
@@ -118,7 +116,6 @@ impl<'c, 'a> Search<'c, 'a> {
             weights: EdgeWeights::default(),
             dropped: BTreeSet::new(),
             neighbours: BTreeMap::new(),
-            pruned: BTreeMap::new(),
         }
     }
 
@@ -126,9 +123,8 @@ impl<'c, 'a> Search<'c, 'a> {
         if let Some(e) = self.neighbours.get(s) {
             return e.clone();
         }
-        let (edges, pruned) = self.graph.neighbours(s, self.ctx.scene.holds.len());
+        let (edges, _) = self.graph.neighbours(s, self.ctx.scene.holds.len());
         self.neighbours.insert(s.clone(), edges.clone());
-        self.pruned.insert(s.clone(), pruned);
         edges
     }
 
@@ -338,16 +334,10 @@ impl<'c, 'a> Search<'c, 'a> {
                 }
             }
         }
-        // Keep the pruned grabs of reached stances only (for the explanation).
-        let pruned = std::mem::take(&mut self.pruned)
-            .into_iter()
-            .filter(|(s, _)| reached.contains_key(s))
-            .collect();
         Ok(SearchOutcome {
             reached,
             goal,
             records,
-            pruned,
             stats,
             exhausted,
         })
