@@ -244,7 +244,7 @@ pub fn check_feasibility(
                                         ctx.robot,
                                         &stack,
                                         ctx.collision,
-                                        &[pose.q.clone()],
+                                        std::slice::from_ref(&pose.q),
                                         &pose_vs,
                                     )?;
                                     if rep.passed() {

@@ -521,7 +521,13 @@ fn assemble(
             let mut residuals = [0.0; 2];
             for (slot, st) in [&a.edge.from, &a.edge.to].into_iter().enumerate() {
                 let stack = st.constraints(robot, ctx.scene, ctx.constant)?;
-                let rep = verify_path(robot, &stack, ctx.collision, &[a.pose.q.clone()], &pose_vs)?;
+                let rep = verify_path(
+                    robot,
+                    &stack,
+                    ctx.collision,
+                    std::slice::from_ref(&a.pose.q),
+                    &pose_vs,
+                )?;
                 if !rep.passed() {
                     return Err(RouteError::VerificationFailed {
                         what: format!("switch {k} pose against {}", st.describe(ctx.scene)),

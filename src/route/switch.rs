@@ -411,7 +411,7 @@ fn joint_at_limit(robot: &crate::model::Robot, q: &[f64]) -> Option<String> {
 /// bar's orientation rows; turning about the bar axis when the bar allows it).
 fn grip_at(bar: &BarGrip, s: f64) -> FrameMatch {
     let p = bar.start + bar.axis.into_inner() * s;
-    let hold = Pose::from_parts(Translation3::from(p.coords), bar.orientation.into());
+    let hold = Pose::from_parts(Translation3::from(p.coords), bar.orientation);
     let mode = if bar.turn_free {
         MatchMode::TurnAbout(Unit::new_unchecked(Vector3::x()))
     } else {
