@@ -23,6 +23,7 @@ pub mod projection;
 pub mod reach;
 pub mod report;
 pub mod robot_file;
+pub mod route;
 pub mod sampling;
 pub mod scenario;
 pub mod scenario_file;
