@@ -16,6 +16,7 @@ pub mod grip_position;
 pub mod kinematics;
 pub mod math;
 pub mod model;
+pub mod motion;
 pub mod planner;
 pub mod projection;
 pub mod report;
