@@ -74,6 +74,9 @@ pub struct MotionSettings {
     pub corner_angle: f64,
     /// Verifier spacing as a fraction of the stride, at most 0.1.
     pub verify_fraction: f64,
+    /// Collision-check spacing inside the planner as a fraction of the stride (the verifier
+    /// re-checks at `verify_fraction` afterwards; coarser is faster but may be rejected).
+    pub plan_fraction: f64,
 }
 
 impl Default for MotionSettings {
@@ -88,6 +91,7 @@ impl Default for MotionSettings {
             min_time_step: 0.000_5,
             corner_angle: 0.05,
             verify_fraction: 0.1,
+            plan_fraction: 0.1,
         }
     }
 }
@@ -116,6 +120,7 @@ impl MotionSettings {
             "in (0, 0.5]",
         )?;
         fraction("verify_fraction", self.verify_fraction, 0.1, "in (0, 0.1]")?;
+        fraction("plan_fraction", self.plan_fraction, 1.0, "in (0, 1]")?;
         for (name, v) in [
             ("max_samples", self.max_samples),
             ("projection_iterations", self.projection_iterations),
@@ -314,6 +319,7 @@ pub fn plan_motion(scenario: &Scenario, settings: &MotionSettings) -> Result<Mot
     )?;
     let walk = WalkSettings::new(stride, 1.0, 100_000, projection)?;
     let resolution = stride * settings.verify_fraction;
+    let plan_resolution = stride * settings.plan_fraction;
     let rrt = RrtSettings::new(
         settings.max_step,
         settings.max_samples,
@@ -326,11 +332,11 @@ pub fn plan_motion(scenario: &Scenario, settings: &MotionSettings) -> Result<Mot
     let plan = match settings.planner {
         PlannerChoice::RrtConnect => {
             if stack.is_empty() {
-                let mut space = FreeSpace::new(robot, Some(&model), resolution)?;
+                let mut space = FreeSpace::new(robot, Some(&model), plan_resolution)?;
                 rrt_connect(&mut space, &start, &goal, &rrt)?
             } else {
                 let mut space =
-                    ConstrainedSpace::new(robot, &stack, Some(&model), walk, resolution)?;
+                    ConstrainedSpace::new(robot, &stack, Some(&model), walk, plan_resolution)?;
                 rrt_connect(&mut space, &start, &goal, &rrt)?
             }
         }

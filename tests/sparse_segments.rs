@@ -90,7 +90,15 @@ fn waypoints_on_the_circle_with_a_chord_between_them_are_rejected() {
         "tip on handle",
     );
     let stack = ConstraintStack::new().with(tether);
-    let on_circle = |a: f64| vec![HINGE[0] + R * a.cos(), HINGE[1] + R * a.sin(), H, a];
+    let qi = |name: &str| robot.joints()[robot.joint_id(name).unwrap()].q_index;
+    let on_circle = |a: f64| {
+        let mut q = vec![0.0; robot.nq()];
+        q[qi("x")] = HINGE[0] + R * a.cos();
+        q[qi("y")] = HINGE[1] + R * a.sin();
+        q[qi("z")] = H;
+        q[qi("hinge")] = a;
+        q
+    };
     let mut buf = stack.buffer(&robot);
     let tol = 1e-6;
     for theta in [0.3, std::f64::consts::FRAC_PI_2, 2.0] {
