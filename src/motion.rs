@@ -600,8 +600,8 @@ impl TimedPolyline {
         for w in bounds.windows(2) {
             let (first, last) = (w[0], w[1]);
             let mut cum = vec![0.0];
-            for k in first..last {
-                cum.push(cum[cum.len() - 1] + lens[k]);
+            for len in &lens[first..last] {
+                cum.push(cum[cum.len() - 1] + len);
             }
             // Grid: every point and every segment midpoint. At a segment midpoint the
             // tangent is the segment's direction and q'' = 0; at an interior point the

@@ -74,6 +74,7 @@ pub(crate) fn load_spec(text: &str, file: &str) -> Result<RobotSpec, DemoError> 
 /// A configuration satisfying `stack` (projected to 1e-10) within limits and collision-free,
 /// from `guess` and seeded random perturbations of it: of the first `candidates` found, the
 /// one with the largest reach margin.
+#[allow(clippy::too_many_arguments)] // each argument is one plain value of the search
 pub(crate) fn settle(
     robot: &Robot,
     stack: &ConstraintStack,
