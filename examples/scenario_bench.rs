@@ -1,0 +1,132 @@
+//! Success rate and planning time of the single-stance demo scenarios over many seeds.
+//!
+//!     cargo run --release --example scenario_bench -- [--seeds 100] [--only door]
+//!         [--plan-fraction F] [--max-step D]
+//!
+//! For each scenario and seed 1..=N: `plan_motion` with default settings; prints successes,
+//! median and 95th percentile of the planning stage and of the whole pipeline (plan, densify,
+//! time, resample, verify), and the mean planner work.
+
+use std::time::Duration;
+
+use clamber::demo::{bar_slide, carry, door, lever};
+use clamber::motion::{plan_motion, MotionSettings};
+use clamber::scenario::Scenario;
+
+fn percentile(sorted: &[Duration], p: f64) -> Duration {
+    if sorted.is_empty() {
+        return Duration::ZERO;
+    }
+    // Nearest rank (common practice).
+    let rank = ((p * sorted.len() as f64).ceil() as usize).clamp(1, sorted.len());
+    sorted[rank - 1]
+}
+
+fn ms(d: Duration) -> f64 {
+    d.as_secs_f64() * 1e3
+}
+
+fn main() -> anyhow::Result<()> {
+    let args: Vec<String> = std::env::args().collect();
+    let mut seeds = 100u64;
+    let mut only: Option<String> = None;
+    let mut plan_fraction: Option<f64> = None;
+    let mut max_step: Option<f64> = None;
+    let mut i = 1;
+    while i < args.len() {
+        match args[i].as_str() {
+            "--seeds" => {
+                seeds = args
+                    .get(i + 1)
+                    .ok_or_else(|| anyhow::anyhow!("--seeds needs a number"))?
+                    .parse()?;
+                i += 1;
+            }
+            "--plan-fraction" => {
+                plan_fraction = Some(
+                    args.get(i + 1)
+                        .ok_or_else(|| anyhow::anyhow!("--plan-fraction needs a number"))?
+                        .parse()?,
+                );
+                i += 1;
+            }
+            "--max-step" => {
+                max_step = Some(
+                    args.get(i + 1)
+                        .ok_or_else(|| anyhow::anyhow!("--max-step needs a number"))?
+                        .parse()?,
+                );
+                i += 1;
+            }
+            "--only" => {
+                only = args.get(i + 1).cloned();
+                i += 1;
+            }
+            other => anyhow::bail!("unknown argument `{other}` (expected --seeds N, --only NAME)"),
+        }
+        i += 1;
+    }
+    let builders: Vec<(
+        &str,
+        fn() -> Result<Scenario, clamber::demo::door::DemoError>,
+    )> = vec![
+        ("door", door::scenario),
+        ("lever", lever::scenario),
+        ("bar_slide", bar_slide::scenario),
+        ("carry", carry::scenario),
+    ];
+    let mut settings = MotionSettings::default();
+    if let Some(f) = plan_fraction {
+        settings.plan_fraction = f;
+    }
+    if let Some(m) = max_step {
+        settings.max_step = m;
+    }
+    println!("settings: {settings:?}");
+    println!("| scenario | success | planning median | planning p95 | pipeline median | pipeline p95 | mean samples | mean projections | mean collision checks | mean duration (s) |");
+    println!("|---|---|---|---|---|---|---|---|---|---|");
+    for (name, build) in builders {
+        if only.as_deref().is_some_and(|o| o != name) {
+            continue;
+        }
+        let base = build()?;
+        let (mut plan_t, mut total_t) = (Vec::new(), Vec::new());
+        let (mut ok, mut samples, mut projections, mut checks, mut duration) =
+            (0u64, 0usize, 0usize, 0usize, 0.0);
+        let mut failures = Vec::new();
+        for seed in 1..=seeds {
+            let mut s = base.clone();
+            s.limits.seed = seed;
+            match plan_motion(&s, &settings) {
+                Ok(m) => {
+                    ok += 1;
+                    plan_t.push(m.stats.times.planning);
+                    total_t.push(m.stats.times.total);
+                    samples += m.stats.planner_samples;
+                    projections += m.stats.projections;
+                    checks += m.stats.collision_checks;
+                    duration += m.stats.duration;
+                }
+                Err(e) => failures.push(format!("seed {seed}: {e}")),
+            }
+        }
+        plan_t.sort();
+        total_t.sort();
+        let n = ok.max(1) as f64;
+        println!(
+            "| {name} | {ok}/{seeds} | {:.1} ms | {:.1} ms | {:.1} ms | {:.1} ms | {:.0} | {:.0} | {:.0} | {:.2} |",
+            ms(percentile(&plan_t, 0.5)),
+            ms(percentile(&plan_t, 0.95)),
+            ms(percentile(&total_t, 0.5)),
+            ms(percentile(&total_t, 0.95)),
+            samples as f64 / n,
+            projections as f64 / n,
+            checks as f64 / n,
+            duration / n,
+        );
+        for f in failures.iter().take(5) {
+            eprintln!("  {name} {f}");
+        }
+    }
+    Ok(())
+}
