@@ -16,6 +16,8 @@ use codespan_reporting::files::SimpleFile;
 use codespan_reporting::term::{self, termcolor};
 use serde::Serialize;
 
+mod cli;
+
 use clamber::output::OutputError;
 use clamber::robot_file::RobotFileError;
 use clamber::scenario::Goal;
@@ -67,6 +69,11 @@ impl Exit {
             if cause.is::<OutputError>() {
                 return Exit::Output;
             }
+            match cause.downcast_ref::<cli::CommandError>() {
+                Some(cli::CommandError::NoRoute(_)) => return Exit::NoRoute,
+                Some(cli::CommandError::Verification(_)) => return Exit::Verification,
+                None => {}
+            }
         }
         Exit::Internal
     }
@@ -113,6 +120,28 @@ enum Command {
     Scenario {
         /// Scenario file (*.scenario.toml).
         file: PathBuf,
+    },
+    /// Plan a verified, timed route for a scenario; write the route (JSON), the trajectory
+    /// (CSV) and a summary to the scenario's output paths.
+    Plan {
+        /// Scenario file (*.scenario.toml).
+        file: PathBuf,
+        /// Write the route here instead of the scenario's `outputs.route`.
+        #[arg(long, short)]
+        output: Option<PathBuf>,
+    },
+    /// Switch feasibility over a scenario's scene: for each effector and pair of holds,
+    /// feasible or not, with reach margin and clearance at the best switch pose.
+    Check {
+        /// Scenario file (*.scenario.toml).
+        file: PathBuf,
+    },
+    /// Re-check a route file against its scenario, independently of the planner.
+    Verify {
+        /// Scenario file (*.scenario.toml).
+        scenario: PathBuf,
+        /// Route (or motion) JSON written by `clamber plan`.
+        route: PathBuf,
     },
     /// Print a shell completion script for clamber.
     Completions {
@@ -472,6 +501,15 @@ fn report_error(e: &anyhow::Error, style: Style, exit: Exit) {
     }
 }
 
+fn print_unless_quiet(text: &str, style: Style) {
+    if !style.quiet {
+        print!("{text}");
+        if !text.ends_with('\n') {
+            println!();
+        }
+    }
+}
+
 fn main() -> ExitCode {
     let cli = match Cli::try_parse() {
         Ok(cli) => cli,
@@ -493,6 +531,15 @@ fn main() -> ExitCode {
         Command::Robot { file } => robot(file, style),
         Command::Scenario { file } => scenario(file, style),
         Command::Completions { shell } => completions(*shell),
+        Command::Plan { file, output } => {
+            cli::plan(file, output.clone(), style.json).map(|t| print_unless_quiet(&t, style))
+        }
+        Command::Check { file } => {
+            cli::check(file, style.json).map(|t| print_unless_quiet(&t, style))
+        }
+        Command::Verify { scenario, route } => {
+            cli::verify(scenario, route, style.json).map(|t| print_unless_quiet(&t, style))
+        }
     };
     match result {
         Ok(()) => ExitCode::from(Exit::Success.code()),

@@ -872,8 +872,10 @@ fn start(
     let constraint_error =
         |e: crate::constraint::ConstraintError| c.field(&stance_span, "stance", e.to_string());
     if settle {
+        // Settled well inside the scenario's tolerance (a thousandth of it, as the planners'
+        // projections), so the start also passes the planners' stricter validity checks.
         let settings = ProjectionSettings {
-            tolerance: limits.tolerance,
+            tolerance: (limits.tolerance * 1e-3).max(1e-13),
             max_iterations: SETTLE_ITERATIONS,
             ..ProjectionSettings::default()
         };

@@ -1,0 +1,142 @@
+//! `clamber plan`, `clamber verify` and `clamber check` end to end on the bundled rail
+//! scenario, run as a user would (the built binary, in a scratch directory).
+//!
+//! Outside checks: the route file is re-checked by `clamber verify` (its own dense pass over
+//! the JSON, independent of the planner's internal verification), and a route corrupted by
+//! hand (a waypoint moved by 0.05 rad, far beyond the 1e-3 path tolerance on a 0.3 m lever
+//! arm) must be rejected with exit code 5, as documented in docs/cli.md.
+
+use std::path::{Path, PathBuf};
+use std::process::Command;
+
+fn bin() -> PathBuf {
+    PathBuf::from(env!("CARGO_BIN_EXE_clamber"))
+}
+
+/// The rail scenario, copied into `dir` with an absolute robot path and outputs in `dir`.
+fn scenario_in(dir: &Path, peg_xyz: Option<&str>) -> PathBuf {
+    let root = Path::new(env!("CARGO_MANIFEST_DIR"));
+    let text =
+        std::fs::read_to_string(root.join("scenarios/sevenfold_rail.scenario.toml")).unwrap();
+    let robot = root.join("robots/sevenfold.toml");
+    let mut text = text.replace(
+        "robot = \"../robots/sevenfold.toml\"",
+        &format!("robot = {:?}", robot.display().to_string()),
+    );
+    text = text.replace("out/sevenfold_rail", "run");
+    if let Some(xyz) = peg_xyz {
+        text = text.replace("xyz = [0.35, 0.35, 0.4]", xyz);
+    }
+    let p = dir.join("rail.scenario.toml");
+    std::fs::write(&p, text).unwrap();
+    p
+}
+
+#[test]
+fn plan_writes_outputs_that_verify_accepts_and_a_corrupted_route_is_rejected() {
+    let dir = tempfile::tempdir().unwrap();
+    let file = scenario_in(dir.path(), None);
+    let out = Command::new(bin()).arg("plan").arg(&file).output().unwrap();
+    assert_eq!(
+        out.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let route = dir.path().join("run.route.json");
+    let csv = std::fs::read_to_string(dir.path().join("run.csv")).unwrap();
+    let summary = std::fs::read_to_string(dir.path().join("run.txt")).unwrap();
+    assert!(summary.contains("switches"), "{summary}");
+    // CSV: time plus one column per coordinate of q (sevenfold: 7 joints).
+    let mut lines = csv.lines();
+    let header: Vec<&str> = lines.next().unwrap().split(',').collect();
+    assert_eq!(header.len(), 1 + 7);
+    assert_eq!(header[0], "time");
+    let mut last = f64::NEG_INFINITY;
+    for l in lines {
+        let cells: Vec<f64> = l.split(',').map(|c| c.parse().unwrap()).collect();
+        assert_eq!(cells.len(), 8);
+        assert!(cells[0] >= last, "time goes backwards");
+        last = cells[0];
+    }
+
+    let ok = Command::new(bin())
+        .arg("verify")
+        .arg(&file)
+        .arg(&route)
+        .output()
+        .unwrap();
+    assert_eq!(
+        ok.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&ok.stderr)
+    );
+    assert!(String::from_utf8_lossy(&ok.stdout).contains("verified"));
+
+    // Corrupt one interior waypoint of the first leg that has one.
+    let mut doc: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(&route).unwrap()).unwrap();
+    let legs = doc["legs"].as_array_mut().unwrap();
+    let leg = legs
+        .iter_mut()
+        .find(|l| l["path"].as_array().unwrap().len() >= 3)
+        .expect("a leg with an interior waypoint");
+    let v = leg["path"][1][1].as_f64().unwrap();
+    leg["path"][1][1] = serde_json::json!(v + 0.05);
+    let bad = dir.path().join("bad.route.json");
+    std::fs::write(&bad, serde_json::to_string(&doc).unwrap()).unwrap();
+    let rejected = Command::new(bin())
+        .arg("verify")
+        .arg(&file)
+        .arg(&bad)
+        .output()
+        .unwrap();
+    assert_eq!(rejected.status.code(), Some(5));
+    let err = String::from_utf8_lossy(&rejected.stderr);
+    assert!(err.contains("leg"), "{err}");
+}
+
+#[test]
+fn unreachable_peg_gives_no_route_exit_and_no_route_file() {
+    let dir = tempfile::tempdir().unwrap();
+    // The peg 3 m away: sevenfold's whole arm is about 1.3 m long (robots/sevenfold.toml).
+    let file = scenario_in(dir.path(), Some("xyz = [3.0, 0.35, 0.4]"));
+    let out = Command::new(bin()).arg("plan").arg(&file).output().unwrap();
+    assert_eq!(
+        out.status.code(),
+        Some(4),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert!(err.contains("peg"), "{err}");
+    assert!(!dir.path().join("run.route.json").exists());
+    assert!(!dir.path().join("run.csv").exists());
+}
+
+#[test]
+fn check_prints_a_feasibility_table_and_json() {
+    let dir = tempfile::tempdir().unwrap();
+    let file = scenario_in(dir.path(), None);
+    let out = Command::new(bin())
+        .arg("check")
+        .arg(&file)
+        .output()
+        .unwrap();
+    assert_eq!(
+        out.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let text = String::from_utf8_lossy(&out.stdout);
+    assert!(text.contains("peg") && text.contains("rail"), "{text}");
+    let out = Command::new(bin())
+        .args(["--json", "check"])
+        .arg(&file)
+        .output()
+        .unwrap();
+    assert_eq!(out.status.code(), Some(0));
+    let _: serde_json::Value = serde_json::from_slice(&out.stdout).expect("JSON");
+}
