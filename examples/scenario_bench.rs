@@ -1,7 +1,8 @@
 //! Success rate and planning time of the single-stance demo scenarios over many seeds.
 //!
 //!     cargo run --release --example scenario_bench -- [--seeds 100] [--only door]
-//!         [--plan-fraction F] [--max-step D]
+//!         [--plan-fraction F] [--max-step D] [--planner rrt|prm|both]
+//!         [--sampling-margin M|none] [--shortcuts N]
 //!
 //! For each scenario and seed 1..=N: `plan_motion` with default settings; prints successes,
 //! median and 95th percentile of the planning stage and of the whole pipeline (plan, densify,
@@ -10,7 +11,7 @@
 use std::time::Duration;
 
 use clamber::demo::{bar_slide, carry, door, lever};
-use clamber::motion::{plan_motion, MotionSettings};
+use clamber::motion::{plan_motion, MotionSettings, PlannerChoice};
 use clamber::scenario::Scenario;
 
 fn percentile(sorted: &[Duration], p: f64) -> Duration {
@@ -32,6 +33,9 @@ fn main() -> anyhow::Result<()> {
     let mut only: Option<String> = None;
     let mut plan_fraction: Option<f64> = None;
     let mut max_step: Option<f64> = None;
+    let mut planners = vec![PlannerChoice::RrtConnect, PlannerChoice::LazyPrm];
+    let mut margin: Option<Option<f64>> = None;
+    let mut shortcuts: Option<usize> = None;
     let mut i = 1;
     while i < args.len() {
         match args[i].as_str() {
@@ -54,6 +58,30 @@ fn main() -> anyhow::Result<()> {
                 max_step = Some(
                     args.get(i + 1)
                         .ok_or_else(|| anyhow::anyhow!("--max-step needs a number"))?
+                        .parse()?,
+                );
+                i += 1;
+            }
+            "--planner" => {
+                planners = match args.get(i + 1).map(String::as_str) {
+                    Some("rrt") => vec![PlannerChoice::RrtConnect],
+                    Some("prm") => vec![PlannerChoice::LazyPrm],
+                    Some("both") => vec![PlannerChoice::RrtConnect, PlannerChoice::LazyPrm],
+                    _ => anyhow::bail!("--planner needs rrt, prm or both"),
+                };
+                i += 1;
+            }
+            "--sampling-margin" => {
+                let v = args
+                    .get(i + 1)
+                    .ok_or_else(|| anyhow::anyhow!("--sampling-margin needs a number or none"))?;
+                margin = Some(if v == "none" { None } else { Some(v.parse()?) });
+                i += 1;
+            }
+            "--shortcuts" => {
+                shortcuts = Some(
+                    args.get(i + 1)
+                        .ok_or_else(|| anyhow::anyhow!("--shortcuts needs a number"))?
                         .parse()?,
                 );
                 i += 1;
@@ -82,10 +110,21 @@ fn main() -> anyhow::Result<()> {
     if let Some(m) = max_step {
         settings.max_step = m;
     }
+    if let Some(m) = margin {
+        settings.sampling_margin = m;
+    }
+    if let Some(n) = shortcuts {
+        settings.shortcut_attempts = n;
+    }
     println!("settings: {settings:?}");
-    println!("| scenario | success | planning median | planning p95 | pipeline median | pipeline p95 | mean samples | mean projections | mean collision checks | mean duration (s) |");
-    println!("|---|---|---|---|---|---|---|---|---|---|");
-    for (name, build) in builders {
+    println!("| scenario | planner | success | planning median | planning p95 | pipeline median | pipeline p95 | mean samples | mean projections | mean collision checks | mean duration (s) |");
+    println!("|---|---|---|---|---|---|---|---|---|---|---|");
+    for ((name, build), planner) in builders
+        .iter()
+        .flat_map(|b| planners.iter().map(move |p| (*b, *p)))
+    {
+        let mut settings = settings;
+        settings.planner = planner;
         if only.as_deref().is_some_and(|o| o != name) {
             continue;
         }
@@ -114,7 +153,7 @@ fn main() -> anyhow::Result<()> {
         total_t.sort();
         let n = ok.max(1) as f64;
         println!(
-            "| {name} | {ok}/{seeds} | {:.1} ms | {:.1} ms | {:.1} ms | {:.1} ms | {:.0} | {:.0} | {:.0} | {:.2} |",
+            "| {name} | {planner:?} | {ok}/{seeds} | {:.1} ms | {:.1} ms | {:.1} ms | {:.1} ms | {:.0} | {:.0} | {:.0} | {:.2} |",
             ms(percentile(&plan_t, 0.5)),
             ms(percentile(&plan_t, 0.95)),
             ms(percentile(&total_t, 0.5)),
@@ -125,7 +164,7 @@ fn main() -> anyhow::Result<()> {
             duration / n,
         );
         for f in failures.iter().take(5) {
-            eprintln!("  {name} {f}");
+            eprintln!("  {name} {planner:?} {f}");
         }
     }
     Ok(())

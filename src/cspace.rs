@@ -62,6 +62,58 @@ pub trait ConfigSpace {
     fn stats(&self) -> CSpaceStats;
 }
 
+/// A narrower box for the translational coordinates (prismatic joints and the position of
+/// floating joints) of random samples. Mobile bases often have a very wide position range
+/// (tens of metres) while a motion stays near its start and goal; uniform samples over the
+/// whole range then mostly land where nothing is reachable. Rotational coordinates keep
+/// their full range. A heuristic: a motion that must leave the box cannot be found.
+#[derive(Clone, Debug, PartialEq)]
+pub struct SamplingBox {
+    /// `(q index, lower, upper)` for each narrowed coordinate.
+    bounds: Vec<(usize, f64, f64)>,
+}
+
+impl SamplingBox {
+    /// The hull of `start` and `goal` widened by `margin` (metres) on each side, within
+    /// the joint limits, for every translational coordinate.
+    pub fn around(robot: &Robot, start: &[f64], goal: &[f64], margin: f64) -> Self {
+        let mut bounds = Vec::new();
+        for j in robot.joints() {
+            let count = match j.kind {
+                crate::model::JointKind::Prismatic { .. } => 1,
+                crate::model::JointKind::Floating => 3,
+                _ => 0,
+            };
+            for k in 0..count {
+                let i = j.q_index + k;
+                let (Some(a), Some(b), Some(lim)) = (start.get(i), goal.get(i), j.limits.get(k))
+                else {
+                    continue;
+                };
+                let lo = (a.min(*b) - margin).max(lim.lower);
+                let hi = (a.max(*b) + margin).min(lim.upper);
+                if lo.is_finite() && hi.is_finite() && lo <= hi {
+                    bounds.push((i, lo, hi));
+                }
+            }
+        }
+        SamplingBox { bounds }
+    }
+
+    /// Replace the narrowed coordinates of `q` with uniform draws inside the box.
+    fn apply<R: Rng + ?Sized>(&self, rng: &mut R, q: &mut [f64]) {
+        for &(i, lo, hi) in &self.bounds {
+            if let Some(v) = q.get_mut(i) {
+                *v = if hi > lo {
+                    rng.random_range(lo..=hi)
+                } else {
+                    lo
+                };
+            }
+        }
+    }
+}
+
 /// Collision and limit checks shared by both spaces.
 struct Checker<'a> {
     robot: &'a Robot,
@@ -137,6 +189,7 @@ impl<'a> Checker<'a> {
 pub struct FreeSpace<'a> {
     checker: Checker<'a>,
     resolution: f64,
+    sampling_box: Option<SamplingBox>,
 }
 
 impl<'a> FreeSpace<'a> {
@@ -148,7 +201,13 @@ impl<'a> FreeSpace<'a> {
         Ok(FreeSpace {
             checker: Checker::new(robot, collision),
             resolution: positive("resolution", resolution)?,
+            sampling_box: None,
         })
+    }
+    /// Draw samples inside `sampling_box` (see [`SamplingBox`]).
+    pub fn with_sampling_box(mut self, sampling_box: SamplingBox) -> Self {
+        self.sampling_box = Some(sampling_box);
+        self
     }
 }
 
@@ -158,7 +217,10 @@ impl ConfigSpace for FreeSpace<'_> {
     }
     fn sample<R: Rng + ?Sized>(&mut self, rng: &mut R) -> Result<Option<Vec<f64>>, CSpaceError> {
         self.checker.stats.samples += 1;
-        let q = self.checker.robot.random_configuration(rng);
+        let mut q = self.checker.robot.random_configuration(rng);
+        if let Some(b) = &self.sampling_box {
+            b.apply(rng, &mut q);
+        }
         Ok(if self.checker.free(&q)? {
             Some(q)
         } else {
@@ -205,6 +267,7 @@ pub struct ConstrainedSpace<'a> {
     walk: WalkSettings,
     resolution: f64,
     buffer: ProjectionBuffer,
+    sampling_box: Option<SamplingBox>,
 }
 
 impl<'a> ConstrainedSpace<'a> {
@@ -222,7 +285,13 @@ impl<'a> ConstrainedSpace<'a> {
             walk,
             resolution: positive("resolution", resolution)?,
             buffer: ProjectionBuffer::new(robot, stack),
+            sampling_box: None,
         })
+    }
+    /// Draw samples (before projection) inside `sampling_box` (see [`SamplingBox`]).
+    pub fn with_sampling_box(mut self, sampling_box: SamplingBox) -> Self {
+        self.sampling_box = Some(sampling_box);
+        self
     }
     pub fn stack(&self) -> &ConstraintStack {
         self.stack
@@ -239,6 +308,9 @@ impl ConfigSpace for ConstrainedSpace<'_> {
     fn sample<R: Rng + ?Sized>(&mut self, rng: &mut R) -> Result<Option<Vec<f64>>, CSpaceError> {
         self.checker.stats.samples += 1;
         let mut q = self.checker.robot.random_configuration(rng);
+        if let Some(b) = &self.sampling_box {
+            b.apply(rng, &mut q);
+        }
         self.checker.stats.projections += 1;
         let rep = project(
             self.checker.robot,

@@ -2,7 +2,8 @@
 //!
 //! 1. constraints: the start stance's grips plus the scenario's constant constraints
 //!    (a [`ConstrainedSpace`], or a [`FreeSpace`] when there are none);
-//! 2. planning ([`PlannerChoice`]; RRT-Connect today);
+//! 2. planning ([`PlannerChoice`]: RRT-Connect or lazy PRM), then shortening on the manifold
+//!    ([`crate::shortcut::shorten`]; every new piece is a checked motion of the space);
 //! 3. densification: every segment of the planned path is split and the new points projected
 //!    onto the manifold until the straight segment's midpoint residual is at most half the
 //!    tolerance and no segment is longer than the stride (so the straight segments a
@@ -26,28 +27,32 @@ use thiserror::Error;
 
 use crate::collision::{CollisionError, CollisionModel, CollisionScratch};
 use crate::constraint::{ConstraintError, ConstraintStack};
-use crate::cspace::{CSpaceError, ConstrainedSpace, FreeSpace};
+use crate::cspace::{CSpaceError, ConfigSpace, ConstrainedSpace, FreeSpace, SamplingBox};
 use crate::kinematics::forward_kinematics;
 use crate::math::Pose;
 use crate::model::Robot;
-use crate::planner::{rrt_connect, PlanError, PlanStats, RrtSettings};
+use crate::planner::{lazy_prm, rrt_connect, Plan, PlanError, PlanStats, PrmSettings, RrtSettings};
 use crate::projection::{project, ProjectionBuffer, ProjectionSettings};
 use crate::scenario::{Goal, Scenario};
 use crate::scene::SceneError;
 use crate::settings::{positive, SettingsError};
+use crate::shortcut::{shorten, ShortenError, ShortenSettings};
 use crate::timing::{
     parameterize_with, robot_limits, Discretization, PathSamples, Profile, TimingError,
 };
 use crate::verify::{verify_path, Defect, VerifyError, VerifyReport, VerifySettings};
 use crate::walk::WalkSettings;
 
-/// Which planner finds the geometric path. Lazy PRM and a shortcut step plug in here.
+/// Which planner finds the geometric path (shortened afterwards, see
+/// [`MotionSettings::shortcut_attempts`]).
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Serialize)]
 #[non_exhaustive]
 pub enum PlannerChoice {
     /// RRT-Connect ([`crate::planner::rrt_connect`]), first tried as a direct walk.
     #[default]
     RrtConnect,
+    /// Lazy PRM ([`crate::planner::lazy_prm`]) with a fresh roadmap.
+    LazyPrm,
 }
 
 /// How to plan, time and check a motion. Tolerance, stride, time limit and seed come from
@@ -77,6 +82,14 @@ pub struct MotionSettings {
     /// Collision-check spacing inside the planner as a fraction of the stride (the verifier
     /// re-checks at `verify_fraction` afterwards; coarser is faster but may be rejected).
     pub plan_fraction: f64,
+    /// Translational coordinates (mobile base, floating base position) of planner samples
+    /// are drawn within the hull of start and goal widened by this many metres
+    /// ([`crate::cspace::SamplingBox`]); `None` samples the whole joint range.
+    pub sampling_margin: Option<f64>,
+    /// Random shortcuts tried on the planned path (0: none).
+    pub shortcut_attempts: usize,
+    /// Smoothing passes on the planned path after the shortcuts (0: none).
+    pub smoothing_passes: usize,
 }
 
 impl Default for MotionSettings {
@@ -92,6 +105,9 @@ impl Default for MotionSettings {
             corner_angle: 0.05,
             verify_fraction: 0.1,
             plan_fraction: 0.1,
+            sampling_margin: Some(1.0),
+            shortcut_attempts: 20,
+            smoothing_passes: 0,
         }
     }
 }
@@ -121,6 +137,15 @@ impl MotionSettings {
         )?;
         fraction("verify_fraction", self.verify_fraction, 0.1, "in (0, 0.1]")?;
         fraction("plan_fraction", self.plan_fraction, 1.0, "in (0, 1]")?;
+        if let Some(m) = self.sampling_margin {
+            if !(m.is_finite() && m >= 0.0) {
+                return Err(SettingsError::OutOfRange {
+                    name: "sampling_margin",
+                    expected: "finite and at least 0",
+                    got: m,
+                });
+            }
+        }
         for (name, v) in [
             ("max_samples", self.max_samples),
             ("projection_iterations", self.projection_iterations),
@@ -162,6 +187,8 @@ pub enum MotionError {
     Space(#[from] CSpaceError),
     #[error(transparent)]
     Timing(#[from] TimingError),
+    #[error(transparent)]
+    Shorten(#[from] ShortenError),
     #[error(transparent)]
     Verify(#[from] VerifyError),
     #[error("goal kind `{0}` is not a single-stance goal; give a goal configuration")]
@@ -213,6 +240,8 @@ pub struct MotionTolerances {
 #[derive(Clone, Copy, Debug, Default, PartialEq)]
 pub struct StageTimes {
     pub planning: Duration,
+    /// Shortening the planned path.
+    pub shorten: Duration,
     pub densify: Duration,
     pub timing: Duration,
     pub verify: Duration,
@@ -327,23 +356,46 @@ pub fn plan_motion(scenario: &Scenario, settings: &MotionSettings) -> Result<Mot
         limits.seed,
     )?;
 
-    // 2. Plan.
-    let t0 = Instant::now();
-    let plan = match settings.planner {
-        PlannerChoice::RrtConnect => {
-            if stack.is_empty() {
-                let mut space = FreeSpace::new(robot, Some(&model), plan_resolution)?;
-                rrt_connect(&mut space, &start, &goal, &rrt)?
-            } else {
-                let mut space =
-                    ConstrainedSpace::new(robot, &stack, Some(&model), walk, plan_resolution)?;
-                rrt_connect(&mut space, &start, &goal, &rrt)?
-            }
-        }
+    let prm = PrmSettings {
+        max_samples: settings.max_samples,
+        time_limit: limits.time_limit,
+        seed: limits.seed,
+        ..PrmSettings::default()
     };
-    let planning = t0.elapsed();
+    let shortening = ShortenSettings::new(
+        settings.shortcut_attempts,
+        settings.smoothing_passes,
+        0.5,
+        limits.seed,
+    )?;
+    let sampling_box = settings
+        .sampling_margin
+        .map(|m| SamplingBox::around(robot, &start, &goal, m));
+
+    // 2. Plan and shorten.
+    let job = PlanJob {
+        choice: settings.planner,
+        start: &start,
+        goal: &goal,
+        rrt: &rrt,
+        prm: &prm,
+        shortening: &shortening,
+    };
+    let (plan, planned, planning, shorten_time) = if stack.is_empty() {
+        let mut space = FreeSpace::new(robot, Some(&model), plan_resolution)?;
+        if let Some(b) = sampling_box {
+            space = space.with_sampling_box(b);
+        }
+        job.run(&mut space)?
+    } else {
+        let mut space = ConstrainedSpace::new(robot, &stack, Some(&model), walk, plan_resolution)?;
+        if let Some(b) = sampling_box {
+            space = space.with_sampling_box(b);
+        }
+        job.run(&mut space)?
+    };
     let pstats: PlanStats = plan.stats;
-    let Some(planned) = plan.path else {
+    let Some(planned) = planned else {
         return Err(MotionError::NoPath {
             samples: pstats.samples,
             nodes: pstats.nodes,
@@ -422,6 +474,7 @@ pub fn plan_motion(scenario: &Scenario, settings: &MotionSettings) -> Result<Mot
         min_clearance,
         times: StageTimes {
             planning,
+            shorten: shorten_time,
             densify: densify_time,
             timing: timing_time,
             verify: verify_time,
@@ -444,6 +497,42 @@ pub fn plan_motion(scenario: &Scenario, settings: &MotionSettings) -> Result<Mot
         samples,
         stats,
     })
+}
+
+/// The planning stage's inputs, run in either space.
+struct PlanJob<'a> {
+    choice: PlannerChoice,
+    start: &'a [f64],
+    goal: &'a [f64],
+    rrt: &'a RrtSettings,
+    prm: &'a PrmSettings,
+    shortening: &'a ShortenSettings,
+}
+
+type PlanOutcome = (Plan, Option<Vec<Vec<f64>>>, Duration, Duration);
+
+impl PlanJob<'_> {
+    /// Plan, then shorten a found path; returns the plan, the (shortened) path and the time
+    /// of each step.
+    fn run<S: ConfigSpace>(&self, space: &mut S) -> Result<PlanOutcome, MotionError> {
+        let t0 = Instant::now();
+        let plan = match self.choice {
+            PlannerChoice::RrtConnect => rrt_connect(space, self.start, self.goal, self.rrt)?,
+            PlannerChoice::LazyPrm => lazy_prm(space, self.start, self.goal, self.prm)?,
+        };
+        let planning = t0.elapsed();
+        let t1 = Instant::now();
+        let path = match &plan.path {
+            Some(p)
+                if p.len() > 2
+                    && self.shortening.shortcut_attempts + self.shortening.smoothing_passes > 0 =>
+            {
+                Some(shorten(space, p, self.shortening)?.path)
+            }
+            other => other.clone(),
+        };
+        Ok((plan, path, planning, t1.elapsed()))
+    }
 }
 
 fn reject(what: &'static str, report: &VerifyReport) -> Result<(), MotionError> {

@@ -141,7 +141,8 @@ pub fn rrt_connect<S: ConfigSpace>(
         // Connect the other tree toward q_new, step after step.
         let b = 1 - a;
         let mut from = trees[b].nearest(&q_new)?;
-        loop {
+        // The time limit bounds the whole call, so it is checked between connect steps too.
+        while t0.elapsed() < settings.time_limit {
             let ext = space.extend(&trees[b].nodes[from], &q_new, settings.max_step)?;
             stats.motions_checked += 1;
             if ext.path.is_empty() {
