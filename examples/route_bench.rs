@@ -94,8 +94,11 @@ fn main() {
     } else {
         vec![4, 8, 16]
     };
-    println!("route_bench: {seeds} seeds on corridor(10), feedback on and off; 20 seeds per size");
-    for feedback in [true, false] {
+    println!("route_bench: {seeds} seeds on corridor(10), feedback on and off; min(seeds, 20) seeds per size");
+    // ROUTE_BENCH_FEEDBACK=on runs only the feedback-on setting (quick runs).
+    let only_on = std::env::var("ROUTE_BENCH_FEEDBACK").is_ok_and(|v| v == "on");
+    let modes: &[bool] = if only_on { &[true] } else { &[true, false] };
+    for &feedback in modes {
         let runs: Vec<Run> = (1..=seeds).map(|s| run(10, s, feedback)).collect();
         summary(
             &format!(
@@ -106,7 +109,7 @@ fn main() {
         );
     }
     for &n in &sizes {
-        let runs: Vec<Run> = (1..=20).map(|s| run(n, s, true)).collect();
+        let runs: Vec<Run> = (1..=seeds.min(20)).map(|s| run(n, s, true)).collect();
         summary(&format!("corridor {n}, feedback on"), &runs);
     }
 }
