@@ -227,10 +227,7 @@ pub fn check_feasibility(
                                 continue;
                             }
                             let Some(qa) = &start_poses[a] else {
-                                entry.reason = Some(SwitchFailure::NotReached {
-                                    hold: name(a),
-                                    residual: f64::NAN,
-                                });
+                                entry.reason = Some(SwitchFailure::NoStartPose { hold: name(a) });
                                 entries.push(entry);
                                 continue;
                             };

@@ -69,6 +69,9 @@ pub enum SwitchFailure {
         joint: String,
         residual: f64,
     },
+    /// The move cannot start: no configuration was found that holds `hold` together with
+    /// the holds the other effectors keep (checked by the feasibility report).
+    NoStartPose { hold: String },
     /// A switch pose was found but no leg inside the stance reaches it.
     NoLeg {
         stance: String,
@@ -95,6 +98,10 @@ impl std::fmt::Display for SwitchFailure {
             SwitchFailure::NotReached { hold, residual } => write!(
                 f,
                 "hold `{hold}` out of reach by {residual:.3} m (grip residual at the best attempt)"
+            ),
+            SwitchFailure::NoStartPose { hold } => write!(
+                f,
+                "no configuration holds `{hold}` together with the kept holds: the move cannot start"
             ),
             SwitchFailure::Collision {
                 hold,
