@@ -13,13 +13,11 @@
 //! stderr.
 //!
 //! `CLAMBER_BENCH_LOOP=1 cargo bench --bench projection` skips criterion and prints the
-//! median and 95th-percentile wall-clock time of single projections (the same pairs, 20
-//! passes), like the `k` comparison in `reference/k-compare`, and the thread-CPU time per
-//! projection (each pass sweeps the pairs `CLAMBER_BENCH_LOOP_SWEEPS` times, default 10;
-//! its thread-CPU total divided by its projections, median over the passes). For profilers,
+//! median and 95th-percentile time of single projections (the same pairs, 20 passes),
+//! like the `k` comparison in `reference/k-compare`. For profilers,
 //! `CLAMBER_BENCH_LOOP_PASSES` sets the passes (default 20) and `CLAMBER_BENCH_DELTAS` a
 //! comma-separated subset of the perturbation sizes, e.g.
-//! `CLAMBER_BENCH_LOOP=1 CLAMBER_BENCH_LOOP_PASSES=1 CLAMBER_BENCH_LOOP_SWEEPS=1 CLAMBER_BENCH_DELTAS=0.05
+//! `CLAMBER_BENCH_LOOP=1 CLAMBER_BENCH_LOOP_PASSES=1 CLAMBER_BENCH_DELTAS=0.05
 //! valgrind --tool=callgrind <bench binary>`.
 
 use std::hint::black_box;
@@ -93,57 +91,30 @@ fn statistics(robot: &Robot, set: &PairSet, buf: &mut ProjectionBuffer) {
     );
 }
 
-/// Nanoseconds this thread has spent on a CPU (Linux `/proc/thread-self/schedstat`, first
-/// field); NaN where unavailable. Same source as the kinematics bench.
-fn thread_cpu_ns() -> f64 {
-    std::fs::read_to_string("/proc/thread-self/schedstat")
-        .ok()
-        .and_then(|s| s.split_whitespace().next().and_then(|t| t.parse().ok()))
-        .unwrap_or(f64::NAN)
-}
-
-/// Per-call wall-clock median and p95 over all projections, and the thread-CPU time per
-/// projection of each pass (its median over the passes): time the thread was descheduled by
-/// other load on the machine does not count.
 fn loop_mode(robot: &Robot, set: &PairSet, buf: &mut ProjectionBuffer) {
     let settings = ProjectionSettings::default();
     let passes = std::env::var("CLAMBER_BENCH_LOOP_PASSES")
         .ok()
         .and_then(|s| s.parse().ok())
         .unwrap_or(20);
-    // The schedstat clock advances in scheduler ticks (4 ms here): a pass sweeps the pairs
-    // `sweeps` times so that a tick is a small part of it.
-    let sweeps = std::env::var("CLAMBER_BENCH_LOOP_SWEEPS")
-        .ok()
-        .and_then(|s| s.parse().ok())
-        .unwrap_or(10);
     let mut q = vec![0.0; robot.nq()];
-    let mut times = Vec::with_capacity(passes * sweeps * PAIRS);
-    let mut cpu = Vec::with_capacity(passes);
+    let mut times = Vec::with_capacity(passes * PAIRS);
     for _ in 0..passes {
-        let c0 = thread_cpu_ns();
-        for _ in 0..sweeps {
-            for (stack, start) in set.stacks.iter().zip(&set.starts) {
-                q.copy_from_slice(start);
-                let t = Instant::now();
-                let rep = project(robot, stack, &settings, black_box(&mut q), buf).unwrap();
-                times.push(t.elapsed().as_nanos() as f64);
-                black_box(rep);
-            }
+        for (stack, start) in set.stacks.iter().zip(&set.starts) {
+            q.copy_from_slice(start);
+            let t = Instant::now();
+            let rep = project(robot, stack, &settings, black_box(&mut q), buf).unwrap();
+            times.push(t.elapsed().as_nanos() as f64);
+            black_box(rep);
         }
-        cpu.push((thread_cpu_ns() - c0) / (sweeps * PAIRS) as f64);
     }
     times.sort_by(f64::total_cmp);
-    cpu.sort_by(f64::total_cmp);
     println!(
-        "projection/sevenfold/{}: median {:.0} ns, p95 {:.0} ns ({} projections); \
-         thread-CPU per projection {:.0} ns (median of {} passes, timer calls included)",
+        "projection/sevenfold/{}: median {:.0} ns, p95 {:.0} ns ({} projections)",
         set.delta,
         times[times.len() / 2],
         times[times.len() * 95 / 100],
-        times.len(),
-        cpu[cpu.len() / 2],
-        cpu.len()
+        times.len()
     );
 }
 

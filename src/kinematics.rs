@@ -34,21 +34,12 @@ pub enum KinematicsError {
     NoSuchLink(LinkId),
 }
 
-/// `(sin x, cos x)` through `libm::sincos` (the FreeBSD/Sun algorithms, error below one unit
-/// in the last place): one argument reduction and two short polynomials, 93 instructions per
-/// call against 124 for the platform's `sin_cos` (glibc), which was a third of forward
-/// kinematics (callgrind, docs/performance.md).
-#[inline]
-fn sin_cos(x: f64) -> (f64, f64) {
-    libm::sincos(x)
-}
-
 /// `r * R(axis, angle)` for a rotation about a unit axis, given `(sin, cos)` of the angle.
 /// Axes along +x, +y, +z (the common case) take 12 multiplications instead of a full 3x3
 /// product; any other axis goes through Rodrigues' formula.
 #[inline]
 fn rotate_about(r: &Matrix3<f64>, axis: &Vector3<f64>, angle: f64) -> Matrix3<f64> {
-    let (s, c) = sin_cos(angle);
+    let (s, c) = angle.sin_cos();
     let (c0, c1, c2) = (r.column(0), r.column(1), r.column(2));
     if axis.x == 0.0 && axis.y == 0.0 && axis.z == 1.0 {
         Matrix3::from_columns(&[c0 * c + c1 * s, c1 * c - c0 * s, c2.into_owned()])
@@ -69,17 +60,13 @@ fn child_pose(parent: &Pose, j: &Joint, q: &[f64]) -> Pose {
     let or = j.origin.rotation.matrix();
     let ot = &j.origin.translation.vector;
     let i = j.q_index;
-    // Most joint origins carry no rotation (robot files give only `xyz`): skip the 3x3
-    // product then (27 multiplications against at most nine comparisons).
-    let w = if *or == Matrix3::identity() {
-        *pr
-    } else {
-        pr * or
-    };
     let (r, t) = match &j.kind {
-        JointKind::Revolute { axis } => (rotate_about(&w, axis, q[i]), pr * ot + pt),
-        JointKind::Prismatic { axis } => (w, pr * ot + pt + w * (axis.into_inner() * q[i])),
-        JointKind::Fixed => (w, pr * ot + pt),
+        JointKind::Revolute { axis } => (rotate_about(&(pr * or), axis, q[i]), pr * ot + pt),
+        JointKind::Prismatic { axis } => {
+            let w = pr * or;
+            (w, pr * ot + pt + w * (axis.into_inner() * q[i]))
+        }
+        JointKind::Fixed => (pr * or, pr * ot + pt),
         JointKind::Floating => {
             let rq = UnitQuaternion::new_normalize(Quaternion::new(
                 q[i + 6],
@@ -87,6 +74,7 @@ fn child_pose(parent: &Pose, j: &Joint, q: &[f64]) -> Pose {
                 q[i + 4],
                 q[i + 5],
             ));
+            let w = pr * or;
             (
                 w * rq.to_rotation_matrix().matrix(),
                 pr * ot + pt + w * Vector3::new(q[i], q[i + 1], q[i + 2]),
@@ -146,21 +134,29 @@ fn check_jacobian(
     Ok(())
 }
 
-/// Visit the joints that move `link` (its support), from the link up to the root, calling
-/// `put(column, linear, angular)` with the world linear velocity of the point `p` (world) and
-/// the world angular velocity each tangent coordinate gives (a floating joint: six calls).
-/// Columns of joints outside the support are not visited: they are zero.
-///
-/// Callers write the columns where they need them (a frame Jacobian, or rows of a constraint
-/// mapped on the fly) instead of going through a 6 x nv scratch matrix.
+/// Walk the joints that move `link` (its support) from the link up to the root, writing
+/// each joint's column(s) for the point `p` (world) into `jac`; `angular` also writes rows
+/// 3..6.
 #[inline]
-pub(crate) fn visit_support_columns(
+fn fill_columns(
     robot: &Robot,
     poses: &[Pose],
     link: LinkId,
     p: &Point3<f64>,
-    mut put: impl FnMut(usize, &Vector3<f64>, &Vector3<f64>),
+    jac: &mut DMatrix<f64>,
+    angular: bool,
 ) {
+    let rows = jac.nrows();
+    let data = jac.as_mut_slice(); // column-major: column c is data[c * rows..][..rows]
+                                   // On the slice: `DMatrix::fill` walks a strided iterator, ~10x the instructions (callgrind).
+    data.fill(0.0);
+    let mut put = |col: usize, lin: &Vector3<f64>, ang: &Vector3<f64>| {
+        let c = &mut data[col * rows..col * rows + rows];
+        c[..3].copy_from_slice(lin.as_slice());
+        if angular {
+            c[3..6].copy_from_slice(ang.as_slice());
+        }
+    };
     let mut l = link;
     while let Some(ji) = robot.links()[l].parent_joint {
         let j = &robot.joints()[ji];
@@ -186,30 +182,6 @@ pub(crate) fn visit_support_columns(
         }
         l = j.parent;
     }
-}
-
-/// Write the columns of [`visit_support_columns`] into `jac` (zeroed first); `angular` also
-/// writes rows 3..6.
-#[inline]
-fn fill_columns(
-    robot: &Robot,
-    poses: &[Pose],
-    link: LinkId,
-    p: &Point3<f64>,
-    jac: &mut DMatrix<f64>,
-    angular: bool,
-) {
-    let rows = jac.nrows();
-    let data = jac.as_mut_slice(); // column-major: column c is data[c * rows..][..rows]
-                                   // On the slice: `DMatrix::fill` walks a strided iterator, ~10x the instructions (callgrind).
-    data.fill(0.0);
-    visit_support_columns(robot, poses, link, p, |col, lin, ang| {
-        let c = &mut data[col * rows..col * rows + rows];
-        c[..3].copy_from_slice(lin.as_slice());
-        if angular {
-            c[3..6].copy_from_slice(ang.as_slice());
-        }
-    });
 }
 
 /// 6 x nv Jacobian of the frame `frame_in_link` fixed on `link` (see the module docs for the

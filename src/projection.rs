@@ -85,9 +85,7 @@ pub struct ProjectionReport {
     pub iterations: usize,
     /// Residual norm at the returned configuration.
     pub residual: f64,
-    /// Evaluations of the constraint stack (forward kinematics and residual) spent, rejected
-    /// steps included. The Jacobian is computed only at the start and at accepted points
-    /// that have not converged.
+    /// Evaluations of the constraint stack (with Jacobian) spent, rejected steps included.
     pub evaluations: usize,
 }
 
@@ -100,24 +98,14 @@ impl ProjectionReport {
 /// Buffers for projecting onto one stack on one robot. Create once per thread, reuse.
 #[derive(Clone, Debug)]
 pub struct ProjectionBuffer {
-    /// After [`project`], `stack.residual` is the residual at the returned configuration
-    /// (`stack.jacobian` may be from an earlier point).
     pub stack: StackBuffer,
     /// `J J^T + lambda I`, then its Cholesky factor (`rows x rows`, column-major).
     normal: Vec<f64>,
     y: Vec<f64>,
     dq: DVector<f64>,
     q_try: Vec<f64>,
-    /// The residual at the current configuration, kept while trial steps overwrite the
-    /// stack's residual.
-    residual_at_q: Vec<f64>,
     /// For each tangent coordinate of a one-DOF joint: its `q` index and position limits.
     bounds: Vec<Option<(usize, f64, f64)>>,
-    /// When every joint has at most one coordinate (no floating joint): `(q index, tangent
-    /// index, lower, upper)` of each moving joint, so a step is integrated and clamped in one
-    /// pass (`Robot::integrate` and `Robot::clamp_to_limits` do the same for these joints,
-    /// through their general per-joint dispatch).
-    one_dof: Option<Vec<(usize, usize, f64, f64)>>,
     /// Tangent coordinates held at a limit during the current step.
     held: Vec<bool>,
 }
@@ -134,28 +122,12 @@ impl ProjectionBuffer {
                 bounds[j.v_index] = Some((j.q_index, j.limits[0].lower, j.limits[0].upper));
             }
         }
-        let mut one_dof = Some(Vec::with_capacity(robot.nv()));
-        for j in robot.joints() {
-            match j.kind {
-                JointKind::Revolute { .. } | JointKind::Prismatic { .. } => {
-                    if let (Some(v), Some(l)) = (one_dof.as_mut(), j.limits.first()) {
-                        v.push((j.q_index, j.v_index, l.lower, l.upper));
-                    } else {
-                        one_dof = None;
-                    }
-                }
-                JointKind::Fixed => {}
-                _ => one_dof = None,
-            }
-        }
         ProjectionBuffer {
-            one_dof,
             stack: stack.buffer(robot),
             normal: vec![0.0; m * m],
             y: vec![0.0; m],
             dq: DVector::zeros(robot.nv()),
             q_try: vec![0.0; robot.nq()],
-            residual_at_q: vec![0.0; m],
             bounds,
             held: vec![false; robot.nv()],
         }
@@ -180,99 +152,19 @@ const HOLD_PASSES: usize = 4;
 /// docs/performance.md).
 ///
 /// The row counts of the common stacks (a position grip, an axis grip, a point grip) get
-/// their own copies on fixed-size arrays ([`damped_step_fixed`]): the loops unroll and the
-/// bounds checks go away, 1,400 instead of 2,010 instructions per 6-row step (callgrind).
-/// Both do the same operations in the same order.
+/// their own copies with `m` a compile-time constant, so the short loops are unrolled: that
+/// halves the instructions of a step for 6 rows (callgrind).
 fn damped_step(buf: &mut ProjectionBuffer, lambda: f64) -> bool {
     match buf.stack.jacobian.nrows() {
-        3 => damped_step_fixed::<3>(buf, lambda),
-        5 => damped_step_fixed::<5>(buf, lambda),
-        6 => damped_step_fixed::<6>(buf, lambda),
+        3 => damped_step_rows(buf, lambda, 3),
+        5 => damped_step_rows(buf, lambda, 5),
+        6 => damped_step_rows(buf, lambda, 6),
         m => damped_step_rows(buf, lambda, m),
     }
 }
 
-/// [`damped_step`] for a Jacobian of `M` rows, on stack arrays. `a[k]` is column `k` of
-/// `J J^T + lambda I` (lower triangle used), then of its Cholesky factor.
-#[inline(always)]
-fn damped_step_fixed<const M: usize>(buf: &mut ProjectionBuffer, lambda: f64) -> bool {
-    let jd = buf.stack.jacobian.as_slice();
-    let cols = || {
-        jd.chunks_exact(M)
-            .filter_map(|c| <&[f64; M]>::try_from(c).ok())
-    };
-    let mut a = [[0.0; M]; M];
-    for (col, held) in cols().zip(&buf.held) {
-        if *held {
-            continue;
-        }
-        // Whole columns, though only the lower triangle is read: fixed-length inner loops,
-        // slightly fewer instructions than the triangle (callgrind: 650 against 706 per
-        // step for 6 x 7). The lower-triangle entries get the same operations in the same
-        // order either way.
-        for (ak, &ck) in a.iter_mut().zip(col) {
-            for (o, &ci) in ak.iter_mut().zip(col) {
-                *o += ci * ck;
-            }
-        }
-    }
-    for (i, c) in a.iter_mut().enumerate() {
-        c[i] += lambda;
-    }
-    // Cholesky, column by column (the order of `cholesky_in_place`).
-    for j in 0..M {
-        for k in 0..j {
-            let ak = a[k];
-            let f = ak[j];
-            for (x, y) in a[j][j..].iter_mut().zip(&ak[j..]) {
-                *x -= f * y;
-            }
-        }
-        let d = a[j][j];
-        // A NaN pivot fails too (it is not greater than zero).
-        if d.partial_cmp(&0.0) != Some(std::cmp::Ordering::Greater) {
-            return false;
-        }
-        let d = d.sqrt();
-        a[j][j] = d;
-        for x in &mut a[j][j + 1..] {
-            *x /= d;
-        }
-    }
-    let mut y = [0.0; M];
-    for (y, f) in y.iter_mut().zip(buf.stack.residual.as_slice()) {
-        *y = -f;
-    }
-    // L z = y, forward; then L^T x = z, backward (as `cholesky_solve_in_place`).
-    for i in 0..M {
-        let zi = y[i] / a[i][i];
-        y[i] = zi;
-        for r in i + 1..M {
-            y[r] -= zi * a[i][r];
-        }
-    }
-    for i in (0..M).rev() {
-        let mut dot = 0.0;
-        for r in i + 1..M {
-            dot += a[i][r] * y[r];
-        }
-        y[i] = (y[i] - dot) / a[i][i];
-    }
-    for ((dq, col), held) in buf.dq.as_mut_slice().iter_mut().zip(cols()).zip(&buf.held) {
-        *dq = if *held {
-            0.0
-        } else {
-            let mut s = 0.0;
-            for r in 0..M {
-                s += col[r] * y[r];
-            }
-            s
-        };
-    }
-    true
-}
-
 /// [`damped_step`] for a Jacobian of `m` rows.
+#[inline(always)]
 fn damped_step_rows(buf: &mut ProjectionBuffer, lambda: f64, m: usize) -> bool {
     if m == 0 {
         buf.dq.fill(0.0);
@@ -287,6 +179,9 @@ fn damped_step_rows(buf: &mut ProjectionBuffer, lambda: f64, m: usize) -> bool {
         }
         // Lower triangle of the rank-one update col col^T (the factorization reads only that).
         for (k, &ck) in col.iter().enumerate() {
+            if ck == 0.0 {
+                continue;
+            }
             let out = &mut a[k * m + k..k * m + m];
             for (o, c) in out.iter_mut().zip(&col[k..]) {
                 *o += c * ck;
@@ -419,30 +314,27 @@ pub fn project(
     let m = buf.stack.jacobian.nrows();
     buf.normal.resize(m * m, 0.0);
     buf.y.resize(m, 0.0);
-    buf.residual_at_q.resize(m, 0.0);
     robot.clamp_to_limits(q);
     let mut err = stack.evaluate(robot, q, &mut buf.stack, true)?;
-    buf.residual_at_q
-        .copy_from_slice(buf.stack.residual.as_slice());
     let mut evaluations = 1;
     let mut lambda = LAMBDA_START;
     let mut iterations = 0;
-    let report = |stop, iterations, residual, evaluations| {
-        Ok(ProjectionReport {
-            stop,
-            iterations,
-            residual,
-            evaluations,
-        })
-    };
-    // Invariant at the top of the loop: `buf.stack` holds the residual and Jacobian at `q`
-    // (and `buf.residual_at_q` a copy of the residual).
     loop {
         if err <= settings.tolerance {
-            return report(StopReason::Converged, iterations, err, evaluations);
+            return Ok(ProjectionReport {
+                stop: StopReason::Converged,
+                iterations,
+                residual: err,
+                evaluations,
+            });
         }
         if iterations >= settings.max_iterations {
-            return report(StopReason::IterationCap, iterations, err, evaluations);
+            return Ok(ProjectionReport {
+                stop: StopReason::IterationCap,
+                iterations,
+                residual: err,
+                evaluations,
+            });
         }
         iterations += 1;
         // Retry with more damping until the residual goes down.
@@ -458,7 +350,12 @@ pub fn project(
             let any_held = buf.held.iter().any(|h| *h);
             if !solved {
                 if lambda >= LAMBDA_MAX {
-                    return report(StopReason::Singular, iterations, err, evaluations);
+                    return Ok(ProjectionReport {
+                        stop: StopReason::Singular,
+                        iterations,
+                        residual: err,
+                        evaluations,
+                    });
                 }
                 lambda *= 10.0;
                 continue;
@@ -467,53 +364,31 @@ pub fn project(
             if norm > settings.max_step {
                 buf.dq *= settings.max_step / norm;
             }
-            let clamped = match &buf.one_dof {
-                Some(coords) => {
-                    let (dq, q_try) = (buf.dq.as_slice(), &mut buf.q_try);
-                    q_try.copy_from_slice(q);
-                    let mut moved = false;
-                    for &(qi, vi, lo, hi) in coords {
-                        let x = q[qi] + dq[vi];
-                        let c = x.clamp(lo, hi);
-                        moved |= c != x;
-                        q_try[qi] = c;
-                    }
-                    moved
-                }
-                None => {
-                    robot.integrate(q, buf.dq.as_slice(), &mut buf.q_try)?;
-                    robot.clamp_to_limits(&mut buf.q_try)
-                }
-            };
-            // The trial needs only the residual: the Jacobian at `q` stays in the buffer in
-            // case the step is rejected, and is computed at the new point (from the link poses
-            // this evaluation leaves behind) only once the step is accepted.
-            let trial = stack.evaluate(robot, &buf.q_try, &mut buf.stack, false)?;
+            robot.integrate(q, buf.dq.as_slice(), &mut buf.q_try)?;
+            let clamped = robot.clamp_to_limits(&mut buf.q_try);
+            let trial = stack.evaluate(robot, &buf.q_try, &mut buf.stack, true)?;
             evaluations += 1;
             if trial < err {
                 q.copy_from_slice(&buf.q_try);
                 err = trial;
                 lambda = (lambda * 0.1).max(LAMBDA_MIN);
-                if err > settings.tolerance && iterations < settings.max_iterations {
-                    stack.evaluate_at_poses(robot, &mut buf.stack, true)?;
-                    buf.residual_at_q
-                        .copy_from_slice(buf.stack.residual.as_slice());
-                }
                 break;
             }
-            // Rejected: put back the residual at q (its Jacobian is still there) and damp
-            // harder.
-            buf.stack
-                .residual
-                .as_mut_slice()
-                .copy_from_slice(&buf.residual_at_q);
+            // Rejected: restore the Jacobian at q and damp harder.
+            stack.evaluate(robot, q, &mut buf.stack, true)?;
+            evaluations += 1;
             if lambda >= LAMBDA_MAX {
                 let stop = if clamped || any_held {
                     StopReason::BlockedByLimits
                 } else {
                     StopReason::Stalled
                 };
-                return report(stop, iterations, err, evaluations);
+                return Ok(ProjectionReport {
+                    stop,
+                    iterations,
+                    residual: err,
+                    evaluations,
+                });
             }
             lambda *= 10.0;
         }

@@ -2,11 +2,10 @@
 //! point grip (effector on a fixed hold), a tether (effector on a mechanism handle: a closed
 //! chain) and a carried object (two effectors at a fixed relative pose).
 
-use nalgebra::{Matrix3, Point3, Rotation3, Unit, Vector3};
+use nalgebra::{Matrix3, Unit, Vector3};
 
 use super::swing::swing;
 use super::{Constraint, ConstraintError, EvalContext, FrameRef, JacobianRows};
-use crate::kinematics::{visit_support_columns, KinematicsError};
 use crate::math::{rotation_log, skew, so3_right_jacobian_inv, Pose};
 use crate::model::Robot;
 
@@ -114,33 +113,6 @@ pub(crate) fn perpendicular_basis(h: &Vector3<f64>) -> (Vector3<f64>, Vector3<f6
     (u1, u2)
 }
 
-/// `log(R_b^T R_a)`, the rotation vector taking frame `b`'s axes to frame `a`'s.
-///
-/// Near the identity (angle below 0.01 rad: the last steps of a projection)
-/// from the skew part alone: with `R = exp([phi]x)`, `vee(R - R^T) / 2 = sin(theta) phi /
-/// theta`, and `theta / sin(theta) = asin(s) / s = 1 + s^2/6 + 3 s^4/40 + 5 s^6/112 +
-/// 35 s^8/1152 + ...` (Maclaurin series of arcsine; Abramowitz & Stegun 4.4.40, number from memory) with
-/// `s = sin(theta)`; the next term is below 1e-21 there. This skips the quaternion and the
-/// `atan2` of [`rotation_log`], which handles every other angle.
-#[inline]
-pub(crate) fn relative_rotation_log(rb: &Matrix3<f64>, ra: &Matrix3<f64>) -> Vector3<f64> {
-    let r = rb.tr_mul(ra);
-    let v = 0.5
-        * Vector3::new(
-            r[(2, 1)] - r[(1, 2)],
-            r[(0, 2)] - r[(2, 0)],
-            r[(1, 0)] - r[(0, 1)],
-        );
-    let s2 = v.norm_squared();
-    // cos(theta) > 0 tells theta from pi - theta (same sine).
-    if s2 < 1e-4 && r.trace() > 1.0 {
-        let f =
-            1.0 + s2 * (1.0 / 6.0 + s2 * (3.0 / 40.0 + s2 * (5.0 / 112.0 + s2 * (35.0 / 1152.0))));
-        return v * f;
-    }
-    rotation_log(&Rotation3::from_matrix_unchecked(r))
-}
-
 impl Constraint for FrameMatch {
     fn rows(&self) -> usize {
         3 + self.orientation_rows()
@@ -172,42 +144,36 @@ impl Constraint for FrameMatch {
         residual[..3].copy_from_slice(dp.as_slice());
         let (ra, rb) = (pa.rotation.matrix(), pb.rotation.matrix());
 
-        // Orientation residual. The 3x3 maps taking each frame's world angular velocity to the
-        // residual's rate (for `b` also the extra term of a moving basis) are only needed for
-        // the Jacobian: projection's trial steps ask for the residual alone.
-        let want_maps = jacobian.is_some();
+        // Orientation residual, and the 3x3 maps taking each frame's world angular velocity to
+        // the residual's rate (for `b` also the extra term of a moving basis).
         let mut map_a = Matrix3::zeros();
         let mut map_b = Matrix3::zeros();
         match self.mode {
             MatchMode::Position => {}
             MatchMode::Full => {
-                let phi = relative_rotation_log(rb, ra);
+                let phi = rotation_log(&(pb.rotation.inverse() * pa.rotation));
                 residual[3..6].copy_from_slice(phi.as_slice());
-                if want_maps {
-                    // d phi = Jr^-1(phi) R_a^T (w_a - w_b)
-                    map_a = so3_right_jacobian_inv(&phi) * ra.transpose();
-                    map_b = -map_a;
-                }
+                // d phi = Jr^-1(phi) R_a^T (w_a - w_b)
+                map_a = so3_right_jacobian_inv(&phi) * ra.transpose();
+                map_b = -map_a;
             }
             MatchMode::TurnAbout(axis) => {
                 let h = rb * axis.into_inner();
                 let a = ra * axis.into_inner();
                 let (s, ds_da) = swing(&h, &a);
+                let (_, ds_dh_neg) = swing(&a, &h); // swing(h, a) = -swing(a, h)
                 let (u1b, u2b) = perpendicular_basis(&axis);
                 let (u1, u2) = (rb * u1b, rb * u2b);
                 residual[3] = u1.dot(&s);
                 residual[4] = u2.dot(&s);
-                if want_maps {
-                    let (_, ds_dh_neg) = swing(&a, &h); // swing(h, a) = -swing(a, h)
-                                                        // da = -[a]x w_a, dh = -[h]x w_b, du = w_b x u.
-                    let sa = ds_da * (-skew(&a));
-                    let sb = -ds_dh_neg * (-skew(&h));
-                    for (k, u) in [u1, u2].iter().enumerate() {
-                        let ra_row = u.transpose() * sa;
-                        let rb_row = u.transpose() * sb + u.cross(&s).transpose();
-                        map_a.set_row(k, &ra_row);
-                        map_b.set_row(k, &rb_row);
-                    }
+                // da = -[a]x w_a, dh = -[h]x w_b, du = w_b x u.
+                let sa = ds_da * (-skew(&a));
+                let sb = -ds_dh_neg * (-skew(&h));
+                for (k, u) in [u1, u2].iter().enumerate() {
+                    let ra_row = u.transpose() * sa;
+                    let rb_row = u.transpose() * sb + u.cross(&s).transpose();
+                    map_a.set_row(k, &ra_row);
+                    map_b.set_row(k, &rb_row);
                 }
             }
         }
@@ -227,94 +193,32 @@ impl Constraint for FrameMatch {
                     got: jac.nrows() as f64,
                 });
             }
-            let n_links = ctx.robot.links().len();
-            if ctx.poses.len() != n_links {
-                return Err(KinematicsError::PoseBuffer {
-                    got: ctx.poses.len(),
-                    expected: n_links,
-                }
-                .into());
-            }
             // Column by column over slices (a column of the stack Jacobian's row block is
             // contiguous): nalgebra's fill, zip_apply and gemm on dynamically sized strided
             // views cost several times more here (callgrind, docs/performance.md).
             for c in 0..jac.ncols() {
                 jac.column_mut(c).as_mut_slice().fill(0.0);
             }
-            let origins = [pa.translation.vector, pb.translation.vector];
-            for ((frame, sign, map), origin) in [(&self.a, 1.0, &map_a), (&self.b, -1.0, &map_b)]
-                .into_iter()
-                .zip(origins)
-            {
+            for (frame, sign, map) in [(&self.a, 1.0, &map_a), (&self.b, -1.0, &map_b)] {
                 if frame.is_fixed() {
                     continue;
                 }
-                if frame.link >= n_links {
-                    return Err(KinematicsError::NoSuchLink(frame.link).into());
-                }
-                // The frame's Jacobian column [v; w], written straight into this
-                // constraint's rows: the position rows get `sign * v`, the orientation rows
-                // `map * w` (`map` already carries the sign of frame b).
-                let p = Point3::from(origin);
-                visit_support_columns(ctx.robot, ctx.poses, frame.link, &p, |c, v, w| {
-                    let r = map * w;
+                ctx.frame_jacobian(frame)?;
+                // Frame Jacobian column [v; w]: the position rows get `sign * v`, the
+                // orientation rows `map * w` (`map` already carries the sign of frame b).
+                for (c, s) in ctx.scratch.as_slice().chunks_exact(6).enumerate() {
+                    let r = map * Vector3::new(s[3], s[4], s[5]);
                     let mut col = jac.column_mut(c);
                     let col = col.as_mut_slice();
                     for k in 0..3 {
-                        col[k] += sign * v[k];
+                        col[k] += sign * s[k];
                     }
                     for k in 0..no {
                         col[3 + k] += r[k];
                     }
-                });
+                }
             }
         }
         Ok(())
-    }
-}
-
-#[cfg(test)]
-mod tests {
-    use nalgebra::{Rotation3, UnitQuaternion, Vector3};
-    use rand::{Rng, SeedableRng};
-    use rand_chacha::ChaCha8Rng;
-
-    use super::relative_rotation_log;
-
-    /// Against nalgebra's quaternion logarithm (`UnitQuaternion::scaled_axis`, a reference
-    /// library) of `R_b^T R_a`, on both sides of the series' 0.01 rad threshold and at
-    /// large angles.
-    #[test]
-    fn relative_rotation_log_matches_quaternion_log() {
-        let mut rng = ChaCha8Rng::seed_from_u64(7);
-        for k in 0..20_000 {
-            let rb = Rotation3::from_scaled_axis(Vector3::new(
-                rng.random_range(-3.0..3.0),
-                rng.random_range(-3.0..3.0),
-                rng.random_range(-3.0..3.0),
-            ));
-            let axis = Vector3::new(
-                rng.random_range(-1.0..1.0),
-                rng.random_range(-1.0..1.0),
-                rng.random_range(-1.0..1.0),
-            )
-            .normalize();
-            // Angles from 1e-12 to 3 rad, log-uniform, plus some just around 0.01 rad.
-            let angle = if k % 4 == 0 {
-                rng.random_range(0.009..0.011)
-            } else {
-                10f64.powf(rng.random_range(-12.0..0.47))
-            };
-            let ra = rb * Rotation3::from_scaled_axis(axis * angle);
-            let got = relative_rotation_log(rb.matrix(), ra.matrix());
-            let want = UnitQuaternion::from_rotation_matrix(&(rb.inverse() * ra)).scaled_axis();
-            let err = (got - want).norm();
-            assert!(err <= 1e-14, "angle {angle}: {got:?} vs {want:?}");
-            assert!(
-                (got.norm() - angle).abs() <= 1e-14,
-                "angle {angle}: |log| {}",
-                got.norm()
-            );
-        }
     }
 }
