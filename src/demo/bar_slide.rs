@@ -10,7 +10,7 @@ use std::sync::Arc;
 
 use nalgebra::{Point3, Translation3, Unit, Vector3};
 
-use super::door::{load_spec, obstacle, settle, DemoError};
+use super::kit::{load_spec, obstacle, settle, DemoError};
 use crate::collision::CollisionModel;
 use crate::constraint::{BarGrip, ConstraintStack, FrameMatch, FrameRef, MatchMode};
 use crate::math::{pose_from_xyz_rpy, Pose};

@@ -18,7 +18,7 @@ use std::sync::Arc;
 
 use nalgebra::{Matrix3, Rotation3, Translation3, Vector3};
 
-use super::door::{load_spec, obstacle, q_index, settle, shape, DemoError};
+use super::kit::{load_spec, obstacle, q_index, settle, shape, DemoError};
 use crate::collision::CollisionModel;
 use crate::constraint::{Constraint, ConstraintStack, FrameMatch, MatchMode};
 use crate::math::{pose_from_xyz_rpy, Pose};

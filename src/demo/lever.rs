@@ -12,7 +12,7 @@ use std::sync::Arc;
 
 use nalgebra::Vector3;
 
-use super::door::{hinge_mechanism, load_spec, obstacle, settle, shape, DemoError};
+use super::kit::{hinge_mechanism, load_spec, obstacle, settle, shape, DemoError};
 use crate::collision::CollisionModel;
 use crate::constraint::{ConstraintStack, FrameMatch, MatchMode};
 use crate::math::{pose_from_xyz_rpy, Pose};

@@ -6,4 +6,5 @@ pub mod bar_slide;
 pub mod carry;
 pub mod climb;
 pub mod door;
+pub mod kit;
 pub mod lever;
