@@ -20,6 +20,7 @@ fn main() -> anyhow::Result<()> {
             trajectory: Some(format!("out/{name}.csv").into()),
             summary: Some(format!("out/{name}.txt").into()),
             picture: None,
+            plots: Some(format!("out/{name}.plots").into()),
         };
         let text = to_toml(&scenario, robot, &outputs)?;
         let header = format!(

@@ -20,6 +20,8 @@ pub mod motion;
 pub mod nearest;
 pub mod output;
 pub mod planner;
+pub mod plot;
+pub mod plot_data;
 pub mod projection;
 pub mod reach;
 pub mod report;

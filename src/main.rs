@@ -40,10 +40,12 @@ enum Exit {
     Verification = 5,
     /// An output file could not be written (nothing partial is left behind).
     Output = 6,
+    /// Interrupted (SIGINT); see `cli::interrupt`. The handler exits with this code itself.
+    Interrupted = 130,
 }
 
 impl Exit {
-    const ALL: [(Exit, &'static str); 7] = [
+    const ALL: [(Exit, &'static str); 8] = [
         (Exit::Success, "success"),
         (
             Exit::Internal,
@@ -54,6 +56,10 @@ impl Exit {
         (Exit::NoRoute, "no route found within the limits"),
         (Exit::Verification, "the verifier rejected the route"),
         (Exit::Output, "an output file could not be written"),
+        (
+            Exit::Interrupted,
+            "interrupted (Ctrl-C): no output file of the run, or all of them, is written",
+        ),
     ];
 
     fn code(self) -> u8 {
@@ -72,6 +78,7 @@ impl Exit {
             match cause.downcast_ref::<cli::CommandError>() {
                 Some(cli::CommandError::NoRoute(_)) => return Exit::NoRoute,
                 Some(cli::CommandError::Verification(_)) => return Exit::Verification,
+                Some(cli::CommandError::BadSuite(_)) => return Exit::BadInput,
                 None => {}
             }
         }
@@ -129,6 +136,10 @@ enum Command {
         /// Write the route here instead of the scenario's `outputs.route`.
         #[arg(long, short)]
         output: Option<PathBuf>,
+        /// Write the plots (joints, residual, clearance; PNG and SVG) into this directory
+        /// instead of the scenario's `outputs.plots`.
+        #[arg(long)]
+        plots: Option<PathBuf>,
     },
     /// Switch feasibility over a scenario's scene: for each effector and pair of holds,
     /// feasible or not, with reach margin and clearance at the best switch pose.
@@ -142,6 +153,19 @@ enum Command {
         scenario: PathBuf,
         /// Route (or motion) JSON written by `clamber plan`.
         route: PathBuf,
+    },
+    /// Plan every scenario of a suite with every seed, in parallel; write a JSON report, a
+    /// table (success, median and p95 time per scenario; outcome and route digest per run)
+    /// and a plot of the run times.
+    Bench {
+        /// Suite file (TOML: `scenarios`, `seeds`, optional `name`, `time_limit`, `output`).
+        suite: PathBuf,
+        /// Worker threads (default: the number of cores).
+        #[arg(long, short)]
+        jobs: Option<usize>,
+        /// Write the report into this directory instead of the suite's `output`.
+        #[arg(long)]
+        out: Option<PathBuf>,
     },
     /// Print a shell completion script for clamber.
     Completions {
@@ -242,6 +266,7 @@ fn scenario(file: &Path, style: Style) -> Result<()> {
         ("trajectory", &o.trajectory),
         ("summary", &o.summary),
         ("picture", &o.picture),
+        ("plots", &o.plots),
     ]
     .into_iter()
     .filter_map(|(k, p)| p.clone().map(|p| (k.to_string(), p)))
@@ -527,13 +552,27 @@ fn main() -> ExitCode {
         quiet: cli.quiet,
         verbose: cli.verbose,
     };
+    if let Err(e) = cli::interrupt::install() {
+        eprintln!("warning: Ctrl-C will not be handled: {e}");
+    }
     let result = match &cli.command {
         Command::Robot { file } => robot(file, style),
         Command::Scenario { file } => scenario(file, style),
         Command::Completions { shell } => completions(*shell),
-        Command::Plan { file, output } => {
-            cli::plan(file, output.clone(), style.json).map(|t| print_unless_quiet(&t, style))
-        }
+        Command::Plan {
+            file,
+            output,
+            plots,
+        } => cli::plan(file, output.clone(), plots.clone(), style.json)
+            .map(|t| print_unless_quiet(&t, style)),
+        Command::Bench { suite, jobs, out } => cli::bench::bench(cli::bench::BenchArgs {
+            suite,
+            jobs: *jobs,
+            out: out.clone(),
+            progress: !(style.quiet || style.json),
+            json: style.json,
+        })
+        .map(|t| print_unless_quiet(&t, style)),
         Command::Check { file } => {
             cli::check(file, style.json).map(|t| print_unless_quiet(&t, style))
         }

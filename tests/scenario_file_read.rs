@@ -234,6 +234,7 @@ fn round_trip(rel: &str) {
         trajectory: None,
         summary: Some(PathBuf::from("out/summary.txt")),
         picture: Some(PathBuf::from("out/route.png")),
+        plots: Some(PathBuf::from("out/plots")),
     };
     let text = to_toml(&f.scenario, &f.robot_file, &outputs).expect("writes");
     let dir = tempfile::tempdir().expect("temp dir");

@@ -2,6 +2,9 @@
 //! library does the work). Errors that decide the exit code are typed here ([`CommandError`])
 //! so `main` can map them.
 
+pub mod bench;
+pub mod interrupt;
+
 use std::fmt::Write as _;
 use std::path::{Path, PathBuf};
 
@@ -11,6 +14,8 @@ use serde_json::Value;
 use clamber::model::{JointKind, Robot};
 use clamber::motion::{plan_motion, Motion, MotionError, MotionSettings};
 use clamber::output::write_atomic;
+use clamber::plot::plot_bytes;
+use clamber::plot_data::{motion_plot_data, route_plot_data};
 use clamber::route::feasibility::check_feasibility;
 use clamber::route::{collision_model, plan_route, Route, RouteError, RouteSettings};
 use clamber::scenario::{Goal, Scenario};
@@ -25,6 +30,9 @@ pub enum CommandError {
     NoRoute(String),
     #[error("verification failed: {0}")]
     Verification(String),
+    /// A bench suite file that cannot be read or is malformed.
+    #[error("{0}")]
+    BadSuite(String),
 }
 
 /// What `plan` produced: a multi-stance route or a single-stance motion.
@@ -68,7 +76,7 @@ pub fn trajectory_csv(robot: &Robot, rows: &[(f64, &[f64])]) -> String {
     s
 }
 
-fn plan_scenario(f: &ScenarioFile) -> Result<Planned> {
+pub(crate) fn plan_scenario(f: &ScenarioFile) -> Result<Planned> {
     let s = &f.scenario;
     if matches!(s.goal, Goal::Configuration(_)) {
         match plan_motion(s, &MotionSettings::default()) {
@@ -160,9 +168,56 @@ fn summary(s: &Scenario, planned: &Planned) -> String {
     out
 }
 
-/// `clamber plan`: plan, verify (inside the library) and write the outputs atomically.
-/// Returns the text to print.
-pub fn plan(file: &Path, route_out: Option<PathBuf>, json: bool) -> Result<String> {
+/// Time step of the joint samples in the plots (seconds).
+pub const PLOT_TIME_STEP: f64 = 0.01;
+
+/// The plots of a planned result, rendered (not yet written): `(file name, bytes)`.
+fn plot_files(s: &Scenario, planned: &Planned) -> Result<Vec<(String, Vec<u8>)>> {
+    let data = match planned {
+        Planned::Route(r) => route_plot_data(s, r, &RouteSettings::default(), PLOT_TIME_STEP),
+        Planned::Motion(m) => motion_plot_data(s, m),
+    }
+    .context("evaluating the plotted series")?;
+    Ok(plot_bytes(&data)?
+        .into_iter()
+        .map(|(name, format, bytes)| (format!("{name}.{}", format.extension()), bytes))
+        .collect())
+}
+
+/// Write `files` (path, bytes) atomically, creating missing directories, as one step that an
+/// interrupt does not cut (see [`interrupt`]). Returns the paths written.
+pub fn write_outputs(files: Vec<(PathBuf, Vec<u8>)>) -> Result<Vec<PathBuf>> {
+    // Test hook (tests/cli_kill.rs): a pause before each file makes the writing step long
+    // enough to interrupt it on purpose.
+    let pause = std::env::var("CLAMBER_TEST_WRITE_PAUSE_MS")
+        .ok()
+        .and_then(|v| v.parse::<u64>().ok())
+        .map(std::time::Duration::from_millis);
+    interrupt::committing(|| {
+        let mut written = Vec::new();
+        for (p, bytes) in files {
+            if let Some(d) = pause {
+                std::thread::sleep(d);
+            }
+            if let Some(dir) = p.parent().filter(|d| !d.as_os_str().is_empty()) {
+                std::fs::create_dir_all(dir)
+                    .with_context(|| format!("creating {}", dir.display()))?;
+            }
+            write_atomic(&p, &bytes)?;
+            written.push(p);
+        }
+        Ok(written)
+    })
+}
+
+/// `clamber plan`: plan, verify (inside the library), render the plots and write the outputs
+/// atomically. Returns the text to print.
+pub fn plan(
+    file: &Path,
+    route_out: Option<PathBuf>,
+    plots_out: Option<PathBuf>,
+    json: bool,
+) -> Result<String> {
     let f = load_scenario(file)?;
     let s = &f.scenario;
     let planned = plan_scenario(&f)?;
@@ -189,21 +244,21 @@ pub fn plan(file: &Path, route_out: Option<PathBuf>, json: bool) -> Result<Strin
     let text = summary(s, &planned);
     let o = &f.outputs;
     let route_path = route_out.or_else(|| o.route.clone());
-    let mut written = Vec::new();
-    for (path, bytes) in [
+    let mut files: Vec<(PathBuf, Vec<u8>)> = [
         (route_path, doc.as_bytes()),
         (o.trajectory.clone(), csv.as_bytes()),
         (o.summary.clone(), text.as_bytes()),
-    ] {
-        if let Some(p) = path {
-            if let Some(dir) = p.parent().filter(|d| !d.as_os_str().is_empty()) {
-                std::fs::create_dir_all(dir)
-                    .with_context(|| format!("creating {}", dir.display()))?;
-            }
-            write_atomic(&p, bytes)?;
-            written.push(p);
+    ]
+    .into_iter()
+    .filter_map(|(p, b)| p.map(|p| (p, b.to_vec())))
+    .collect();
+    // Every plot is rendered before anything is written.
+    if let Some(dir) = plots_out.or_else(|| o.plots.clone()) {
+        for (name, bytes) in plot_files(s, &planned)? {
+            files.push((dir.join(name), bytes));
         }
     }
+    let written = write_outputs(files)?;
     if json {
         return Ok(doc);
     }

@@ -125,6 +125,9 @@ pub struct Outputs {
     pub summary: Option<PathBuf>,
     /// A picture of the route (PNG).
     pub picture: Option<PathBuf>,
+    /// Directory for the plots of the route (`joints`, `residual`, `clearance`, each as
+    /// PNG and SVG).
+    pub plots: Option<PathBuf>,
 }
 
 /// A scenario read from a file, with what the file says beyond the [`Scenario`] itself.

@@ -200,13 +200,14 @@ pub(super) struct OutputsRaw {
     pub trajectory: Field,
     pub summary: Field,
     pub picture: Field,
+    pub plots: Field,
 }
 impl Section for OutputsRaw {
     const KEY: &'static str = "outputs";
     const HEADER: &'static str = "[outputs]";
 }
 /// Keys of `[outputs]`.
-pub const OUTPUTS_KEYS: &[&str] = &["route", "trajectory", "summary", "picture"];
+pub const OUTPUTS_KEYS: &[&str] = &["route", "trajectory", "summary", "picture", "plots"];
 
 /// Where each set of keys is allowed, to name the table in an unknown-key message. The
 /// robot-format tables are those of an inline mechanism.

@@ -1054,6 +1054,7 @@ fn outputs(c: &Checker, raw: Option<&OutputsRaw>) -> Res<Outputs> {
         ("trajectory", &o.trajectory, &mut out.trajectory),
         ("summary", &o.summary, &mut out.summary),
         ("picture", &o.picture, &mut out.picture),
+        ("plots", &o.plots, &mut out.plots),
     ] {
         if let Some(v) = v {
             *slot = Some(c.base_dir.join(c.string(v, key)?));

@@ -453,6 +453,7 @@ pub fn to_toml(scenario: &Scenario, robot_file: &Path, outputs: &Outputs) -> Res
         ("trajectory", &outputs.trajectory),
         ("summary", &outputs.summary),
         ("picture", &outputs.picture),
+        ("plots", &outputs.plots),
     ] {
         if let Some(p) = p {
             out.insert(key.into(), path_text(p)?);
