@@ -179,3 +179,30 @@ fn plotted_series_agree_with_the_route_and_with_finite_differences() {
     }
     assert!(compared > 1000, "only {compared} comparisons");
 }
+
+/// A single-stance motion (the lever demo, a passive pivot joint in `q`): its plot data are
+/// its timed samples, and the residual along them is what the motion's verifier saw.
+#[test]
+fn motion_plot_data_follow_the_timed_samples() {
+    let s = clamber::demo::lever::scenario().unwrap();
+    let m = clamber::motion::plan_motion(&s, &clamber::motion::MotionSettings::default()).unwrap();
+    let d = clamber::plot_data::motion_plot_data(&s, &m).unwrap();
+    assert_eq!(d.joints.t.len(), m.samples.len());
+    assert_eq!(d.joints.positions.len(), s.robot.nq()); // no floating joint
+    assert_eq!(d.joints.velocities.len(), s.robot.nv());
+    for (k, x) in m.samples.iter().enumerate() {
+        assert_eq!(d.joints.t[k], x.t);
+        for (c, track) in d.joints.positions.iter().enumerate() {
+            assert_eq!(track.values[k], x.q[c]);
+        }
+        for (c, track) in d.joints.velocities.iter().enumerate() {
+            assert_eq!(track.values[k], x.qdot[c]);
+        }
+    }
+    assert_eq!(d.residual.max(), m.stats.max_residual_samples_verified);
+    assert!(d.residual.max() <= m.tolerances.tolerance);
+    assert!(d.switch_times.is_empty());
+    // Every plot renders.
+    let all = clamber::plot::plot_bytes(&d).unwrap();
+    assert_eq!(all.len(), 6);
+}
