@@ -66,6 +66,13 @@ pub struct RouteSettings {
     pub leg_samples: usize,
     /// Longest extension of the leg planner (joint-space distance).
     pub leg_step: f64,
+    /// Translational sampling box of a leg: the hull of its two ends widened by this much
+    /// (metres; see [`crate::cspace::SamplingBox`]).
+    pub leg_box_margin: f64,
+    /// Share of a leg's samples drawn near the straight segment between its ends, and the
+    /// largest per-coordinate offset of those samples (see [`crate::cspace::SegmentSampling`]).
+    pub leg_segment_share: f64,
+    pub leg_sample_spread: f64,
     /// Wall-clock limit of one leg (a failing leg is a failed switch attempt; results that
     /// hit it depend on the machine's speed).
     pub leg_time_limit: Duration,
@@ -89,6 +96,9 @@ impl Default for RouteSettings {
             min_clearance: 0.005,
             leg_samples: 400,
             leg_step: 0.5,
+            leg_box_margin: 0.4,
+            leg_segment_share: 0.8,
+            leg_sample_spread: 0.6,
             leg_time_limit: Duration::from_secs(6),
             path_tolerance: 1e-3,
             timing_grid: 4,
@@ -136,6 +146,15 @@ impl RouteSettings {
             });
         }
         positive("leg_step", self.leg_step)?;
+        positive("leg_box_margin", self.leg_box_margin)?;
+        positive("leg_sample_spread", self.leg_sample_spread)?;
+        if !(0.0..=1.0).contains(&self.leg_segment_share) {
+            return Err(SettingsError::OutOfRange {
+                name: "leg_segment_share",
+                expected: "between 0 and 1",
+                got: self.leg_segment_share,
+            });
+        }
         positive("path_tolerance", self.path_tolerance)?;
         Ok(())
     }
