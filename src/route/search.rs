@@ -205,6 +205,7 @@ impl<'c, 'a> Search<'c, 'a> {
         finder: &SwitchFinder<'_, '_>,
         edge: &SwitchEdge,
         q: &[f64],
+        effort: usize,
         rng: &mut R,
         stats: &mut SearchStats,
     ) -> Result<Result<Arrival, SwitchFailure>, RouteError> {
@@ -223,7 +224,7 @@ impl<'c, 'a> Search<'c, 'a> {
             }));
         }
         let t = std::time::Instant::now();
-        let found = finder.grab(&edge.from, q, &edge.effector, edge.hold, rng)?;
+        let found = finder.grab(&edge.from, q, &edge.effector, edge.hold, effort, rng)?;
         stats.switch_pose_seconds += t.elapsed().as_secs_f64();
         let pose = match found {
             Ok(p) => p,
@@ -309,7 +310,8 @@ impl<'c, 'a> Search<'c, 'a> {
             stats.switch_attempts += 1;
             let record = records.entry(edge.clone()).or_default();
             record.attempts += 1;
-            match self.attempt(&finder, &edge, &q, &mut rng, &mut stats)? {
+            let effort = record.attempts;
+            match self.attempt(&finder, &edge, &q, effort, &mut rng, &mut stats)? {
                 Ok(arrival) => {
                     reached.insert(
                         to.clone(),
