@@ -129,6 +129,12 @@ enum Command {
         /// Write the route here instead of the scenario's `outputs.route`.
         #[arg(long, short)]
         output: Option<PathBuf>,
+        /// Planning time limit in seconds, instead of the scenario's `limits.time_limit`.
+        #[arg(long, value_parser = positive_seconds)]
+        time_limit: Option<f64>,
+        /// Random seed, instead of the scenario's `limits.seed`.
+        #[arg(long)]
+        seed: Option<u64>,
     },
     /// Switch feasibility over a scenario's scene: for each effector and pair of holds,
     /// feasible or not, with reach margin and clearance at the best switch pose.
@@ -148,6 +154,16 @@ enum Command {
         /// The shell to complete in.
         shell: Shell,
     },
+}
+
+/// A time limit given on the command line: seconds, finite and positive.
+fn positive_seconds(text: &str) -> Result<f64, String> {
+    match text.parse::<f64>() {
+        Ok(v) if v.is_finite() && v > 0.0 && v < 1e9 => Ok(v),
+        _ => Err(format!(
+            "expected a positive number of seconds (e.g. 2.5), got `{text}`"
+        )),
+    }
 }
 
 /// How much to print.
@@ -531,8 +547,18 @@ fn main() -> ExitCode {
         Command::Robot { file } => robot(file, style),
         Command::Scenario { file } => scenario(file, style),
         Command::Completions { shell } => completions(*shell),
-        Command::Plan { file, output } => {
-            cli::plan(file, output.clone(), style.json).map(|t| print_unless_quiet(&t, style))
+        Command::Plan {
+            file,
+            output,
+            time_limit,
+            seed,
+        } => {
+            let limits = cli::LimitOverrides {
+                time_limit: time_limit.map(std::time::Duration::from_secs_f64),
+                seed: *seed,
+            };
+            cli::plan(file, output.clone(), limits, style.json)
+                .map(|t| print_unless_quiet(&t, style))
         }
         Command::Check { file } => {
             cli::check(file, style.json).map(|t| print_unless_quiet(&t, style))
