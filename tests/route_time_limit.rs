@@ -47,7 +47,10 @@ fn a_short_time_limit_ends_the_search_and_reports_the_furthest_stance() {
 fn plan_time_limit_flag_ends_with_no_route_and_writes_nothing() {
     let dir = tempfile::tempdir().unwrap();
     let route = dir.path().join("r.json");
-    let scenario = concat!(env!("CARGO_MANIFEST_DIR"), "/scenarios/tessel_corridor.scenario.toml");
+    let scenario = concat!(
+        env!("CARGO_MANIFEST_DIR"),
+        "/scenarios/tessel_corridor.scenario.toml"
+    );
     let t = Instant::now();
     let out = std::process::Command::new(env!("CARGO_BIN_EXE_clamber"))
         .args(["plan", scenario, "--time-limit", "0.02", "-o"])
@@ -58,14 +61,21 @@ fn plan_time_limit_flag_ends_with_no_route_and_writes_nothing() {
     let stderr = String::from_utf8_lossy(&out.stderr);
     println!("{stderr}");
     assert_eq!(out.status.code(), Some(4), "exit code 4 (no route)");
-    assert!(stderr.contains("time limit"), "says the time limit ended it");
+    assert!(
+        stderr.contains("time limit"),
+        "says the time limit ended it"
+    );
     assert!(!route.exists(), "no route file");
     for bad in ["0", "-1", "nan", "soon"] {
         let out = std::process::Command::new(env!("CARGO_BIN_EXE_clamber"))
             .args(["plan", scenario, &format!("--time-limit={bad}")])
             .output()
             .unwrap();
-        assert_eq!(out.status.code(), Some(2), "usage error for --time-limit {bad}");
+        assert_eq!(
+            out.status.code(),
+            Some(2),
+            "usage error for --time-limit {bad}"
+        );
         assert!(String::from_utf8_lossy(&out.stderr).contains("positive number of seconds"));
     }
 }
