@@ -2,7 +2,7 @@
 //!
 //!     cargo run --release --example scenario_bench -- [--seeds 100] [--only door]
 //!         [--plan-fraction F] [--max-step D] [--planner rrt|prm|both]
-//!         [--sampling-margin M|none] [--shortcuts N]
+//!         [--sampling-margin M|none] [--shortcuts N] [--segment-share S]
 //!
 //! For each scenario and seed 1..=N: `plan_motion` with default settings; prints successes,
 //! median and 95th percentile of the planning stage and of the whole pipeline (plan, densify,
@@ -32,6 +32,7 @@ fn main() -> anyhow::Result<()> {
     let mut seeds = 100u64;
     let mut only: Option<String> = None;
     let mut plan_fraction: Option<f64> = None;
+    let mut segment_share: Option<f64> = None;
     let mut max_step: Option<f64> = None;
     let mut planners = vec![PlannerChoice::RrtConnect, PlannerChoice::LazyPrm];
     let mut margin: Option<Option<f64>> = None;
@@ -44,6 +45,14 @@ fn main() -> anyhow::Result<()> {
                     .get(i + 1)
                     .ok_or_else(|| anyhow::anyhow!("--seeds needs a number"))?
                     .parse()?;
+                i += 1;
+            }
+            "--segment-share" => {
+                segment_share = Some(
+                    args.get(i + 1)
+                        .ok_or_else(|| anyhow::anyhow!("--segment-share needs a number"))?
+                        .parse()?,
+                );
                 i += 1;
             }
             "--plan-fraction" => {
@@ -104,6 +113,9 @@ fn main() -> anyhow::Result<()> {
         ("carry", carry::scenario),
     ];
     let mut settings = MotionSettings::default();
+    if let Some(f) = segment_share {
+        settings.segment_share = f;
+    }
     if let Some(f) = plan_fraction {
         settings.plan_fraction = f;
     }

@@ -140,6 +140,12 @@ enum Command {
         /// instead of the scenario's `outputs.plots`.
         #[arg(long)]
         plots: Option<PathBuf>,
+        /// Planning time limit in seconds, instead of the scenario's `limits.time_limit`.
+        #[arg(long, value_parser = positive_seconds)]
+        time_limit: Option<f64>,
+        /// Random seed, instead of the scenario's `limits.seed`.
+        #[arg(long)]
+        seed: Option<u64>,
     },
     /// Switch feasibility over a scenario's scene: for each effector and pair of holds,
     /// feasible or not, with reach margin and clearance at the best switch pose.
@@ -172,6 +178,16 @@ enum Command {
         /// The shell to complete in.
         shell: Shell,
     },
+}
+
+/// A time limit given on the command line: seconds, finite and positive.
+fn positive_seconds(text: &str) -> Result<f64, String> {
+    match text.parse::<f64>() {
+        Ok(v) if v.is_finite() && v > 0.0 && v < 1e9 => Ok(v),
+        _ => Err(format!(
+            "expected a positive number of seconds (e.g. 2.5), got `{text}`"
+        )),
+    }
 }
 
 /// How much to print.
@@ -563,8 +579,16 @@ fn main() -> ExitCode {
             file,
             output,
             plots,
-        } => cli::plan(file, output.clone(), plots.clone(), style.json)
-            .map(|t| print_unless_quiet(&t, style)),
+            time_limit,
+            seed,
+        } => {
+            let limits = cli::LimitOverrides {
+                time_limit: time_limit.map(std::time::Duration::from_secs_f64),
+                seed: *seed,
+            };
+            cli::plan(file, output.clone(), plots.clone(), limits, style.json)
+                .map(|t| print_unless_quiet(&t, style))
+        }
         Command::Bench { suite, jobs, out } => cli::bench::bench(cli::bench::BenchArgs {
             suite,
             jobs: *jobs,

@@ -27,7 +27,9 @@ use thiserror::Error;
 
 use crate::collision::{CollisionError, CollisionModel, CollisionScratch};
 use crate::constraint::{ConstraintError, ConstraintStack};
-use crate::cspace::{CSpaceError, ConfigSpace, ConstrainedSpace, FreeSpace, SamplingBox};
+use crate::cspace::{
+    CSpaceError, ConfigSpace, ConstrainedSpace, FreeSpace, SamplingBox, SegmentSampling,
+};
 use crate::kinematics::forward_kinematics;
 use crate::math::Pose;
 use crate::model::Robot;
@@ -86,6 +88,11 @@ pub struct MotionSettings {
     /// are drawn within the hull of start and goal widened by this many metres
     /// ([`crate::cspace::SamplingBox`]); `None` samples the whole joint range.
     pub sampling_margin: Option<f64>,
+    /// Draw this share of the samples near the straight segment from start to goal, offset by
+    /// up to `segment_spread` per coordinate ([`crate::cspace::SegmentSampling`]); constrained
+    /// spaces only. 0: every sample uniform.
+    pub segment_share: f64,
+    pub segment_spread: f64,
     /// Random shortcuts tried on the planned path (0: none).
     pub shortcut_attempts: usize,
     /// Smoothing passes on the planned path after the shortcuts (0: none).
@@ -106,6 +113,8 @@ impl Default for MotionSettings {
             verify_fraction: 0.1,
             plan_fraction: 0.1,
             sampling_margin: Some(1.0),
+            segment_share: 0.0,
+            segment_spread: 0.6,
             shortcut_attempts: 20,
             smoothing_passes: 0,
         }
@@ -137,6 +146,14 @@ impl MotionSettings {
         )?;
         fraction("verify_fraction", self.verify_fraction, 0.1, "in (0, 0.1]")?;
         fraction("plan_fraction", self.plan_fraction, 1.0, "in (0, 1]")?;
+        positive("segment_spread", self.segment_spread)?;
+        if !(0.0..=1.0).contains(&self.segment_share) {
+            return Err(SettingsError::OutOfRange {
+                name: "segment_share",
+                expected: "between 0 and 1",
+                got: self.segment_share,
+            });
+        }
         if let Some(m) = self.sampling_margin {
             if !(m.is_finite() && m >= 0.0) {
                 return Err(SettingsError::OutOfRange {
@@ -391,6 +408,15 @@ pub fn plan_motion(scenario: &Scenario, settings: &MotionSettings) -> Result<Mot
         let mut space = ConstrainedSpace::new(robot, &stack, Some(&model), walk, plan_resolution)?;
         if let Some(b) = sampling_box {
             space = space.with_sampling_box(b);
+        }
+        if settings.segment_share > 0.0 {
+            space = space.with_segment_sampling(SegmentSampling::new(
+                robot,
+                &start,
+                &goal,
+                settings.segment_spread,
+                settings.segment_share,
+            )?);
         }
         job.run(&mut space)?
     };

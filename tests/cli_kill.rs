@@ -32,6 +32,27 @@ fn scenario_in(dir: &Path, name: &str, robot: &str) -> PathBuf {
     p
 }
 
+/// A 200-bar climbing corridor (`demo::climb::corridor`) with a 120 s time limit, written
+/// as a scenario file whose outputs all point into `dir`: planning it takes seconds (7.3 s
+/// measured in the test profile on the loaded development machine), far more than the
+/// 0.5 s after which the test interrupts it.
+fn long_corridor_in(dir: &Path) -> PathBuf {
+    let mut sc = clamber::demo::climb::corridor(200).unwrap();
+    sc.limits.time_limit = Duration::from_secs(120);
+    let outputs = clamber::scenario_file::Outputs {
+        route: Some("run.route.json".into()),
+        trajectory: Some("run.csv".into()),
+        summary: Some("run.txt".into()),
+        picture: None,
+        plots: Some("run.plots".into()),
+    };
+    let text = clamber::scenario_file::to_toml(&sc, &root().join("robots/brachia.toml"), &outputs)
+        .unwrap();
+    let p = dir.join("s.scenario.toml");
+    std::fs::write(&p, text).unwrap();
+    p
+}
+
 fn sigint(child: &Child) {
     let ok = Command::new("kill")
         .args(["-INT", &child.id().to_string()])
@@ -75,8 +96,7 @@ fn files(dir: &Path) -> Vec<String> {
 #[test]
 fn sigint_while_planning_leaves_no_output_and_no_temporary_file() {
     let dir = tempfile::tempdir().unwrap();
-    // The climbing corridor takes several seconds to plan (docs/performance.md, Routes).
-    let file = scenario_in(dir.path(), "tessel_corridor", "brachia.toml");
+    let file = long_corridor_in(dir.path());
     let mut child = Command::new(env!("CARGO_BIN_EXE_clamber"))
         .arg("plan")
         .arg(&file)
@@ -84,7 +104,7 @@ fn sigint_while_planning_leaves_no_output_and_no_temporary_file() {
         .stderr(Stdio::piped())
         .spawn()
         .unwrap();
-    std::thread::sleep(Duration::from_millis(1500));
+    std::thread::sleep(Duration::from_millis(500));
     assert!(
         child.try_wait().unwrap().is_none(),
         "the plan ended before the interrupt; the test needs a slower scenario"

@@ -58,12 +58,8 @@ fn own_gap_explanation_names_the_blocking_switch_and_the_excess() {
     assert!(ex.to_string().contains("out of reach by 0.200 m"));
 }
 
-/// The climbing demo's gap scene. Ignored for now: the legs toward the near ledge fail (the
-/// leg planner's connect step runs until the leg's deadline, see the route report), so the
-/// search stops before it reaches the ledge by the gap and the excess it reports is measured
-/// from an earlier ledge.
+/// The climbing demo's gap scene: the search climbs to the ledge by the gap and stops there.
 #[test]
-#[ignore = "legs to the near ledge fail in the leg planner; see docs/routes.md status"]
 fn gap_explanation_names_the_blocking_switch_and_the_excess() {
     let sc = gap().unwrap();
     let err = plan_route(&sc, &RouteSettings::default()).expect_err("no route across the gap");

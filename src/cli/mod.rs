@@ -210,15 +210,29 @@ pub fn write_outputs(files: Vec<(PathBuf, Vec<u8>)>) -> Result<Vec<PathBuf>> {
     })
 }
 
+/// Limits given on the command line, replacing the scenario file's.
+#[derive(Clone, Copy, Debug, Default)]
+pub struct LimitOverrides {
+    pub time_limit: Option<std::time::Duration>,
+    pub seed: Option<u64>,
+}
+
 /// `clamber plan`: plan, verify (inside the library), render the plots and write the outputs
 /// atomically. Returns the text to print.
 pub fn plan(
     file: &Path,
     route_out: Option<PathBuf>,
     plots_out: Option<PathBuf>,
+    overrides: LimitOverrides,
     json: bool,
 ) -> Result<String> {
-    let f = load_scenario(file)?;
+    let mut f = load_scenario(file)?;
+    if let Some(t) = overrides.time_limit {
+        f.scenario.limits.time_limit = t;
+    }
+    if let Some(seed) = overrides.seed {
+        f.scenario.limits.seed = seed;
+    }
     let s = &f.scenario;
     let planned = plan_scenario(&f)?;
     let (doc, csv) = match &planned {

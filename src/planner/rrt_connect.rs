@@ -12,6 +12,10 @@ use crate::cspace::ConfigSpace;
 use crate::nearest::NearestIndex;
 use crate::settings::{positive, SettingsError};
 
+/// Least share of a connect step's possible progress (`max_step`, or the gap if shorter) that
+/// keeps the connect going.
+const CONNECT_MIN_PROGRESS: f64 = 0.25;
+
 /// Planner settings. Build with [`RrtSettings::new`] (checked).
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct RrtSettings {
@@ -142,14 +146,26 @@ pub fn rrt_connect<S: ConfigSpace>(
         let b = 1 - a;
         let mut from = trees[b].nearest(&q_new)?;
         // The time limit bounds the whole call, so it is checked between connect steps too.
+        let mut gap = space.distance(&trees[b].nodes[from], &q_new);
         while t0.elapsed() < settings.time_limit {
             let ext = space.extend(&trees[b].nodes[from], &q_new, settings.max_step)?;
             stats.motions_checked += 1;
-            if ext.path.is_empty() {
+            let Some(end) = ext.path.last() else {
+                break;
+            };
+            let reached = ext.reached;
+            // A constrained extension can slide along the manifold while closing the gap only
+            // a little; connecting on through such steps costs many projections for nothing.
+            // Keep the nodes (they are valid) but stop connecting when a step closed less than
+            // a quarter of what it could have.
+            let left = space.distance(end, &q_new);
+            let stalled =
+                !reached && gap - left < CONNECT_MIN_PROGRESS * settings.max_step.min(gap);
+            gap = left;
+            from = trees[b].add_chain(from, ext.path)?;
+            if stalled {
                 break;
             }
-            let reached = ext.reached;
-            from = trees[b].add_chain(from, ext.path)?;
             if reached {
                 let (ia, ib) = (new, from);
                 let mut first = trees[a].path_to(ia);

@@ -43,6 +43,10 @@ pub struct Explanation {
     pub exhausted: bool,
     /// The time limit ended the search.
     pub timed_out: bool,
+    /// Region goals: stances reached from which the reach test allowed the region, but where
+    /// no pose with the link inside it (on the stance's manifold, within limits, with
+    /// clearance) and leg to it were found.
+    pub region_not_reached_from: Vec<NamedStance>,
     pub stats: SearchStats,
 }
 
@@ -53,7 +57,10 @@ fn describe_goal(goal: &Goal, scene: &Scene) -> String {
             "{effector} on {}",
             scene.holds.get(*hold).map_or("?", |h| h.name.as_str())
         ),
-        Goal::BodyInRegion { link, .. } => format!("link {link} in a region"),
+        Goal::BodyInRegion { link, min, max } => format!(
+            "link {link} inside [{:.3}, {:.3}, {:.3}] .. [{:.3}, {:.3}, {:.3}]",
+            min.x, min.y, min.z, max.x, max.y, max.z
+        ),
         Goal::Configuration(_) => "a configuration".into(),
     }
 }
@@ -171,6 +178,7 @@ pub(crate) fn explain(
         blocking: blocking.into_iter().map(|(_, b)| b).collect(),
         exhausted: outcome.exhausted,
         timed_out: outcome.stats.timed_out,
+        region_not_reached_from: outcome.struck.iter().map(|s| named(s, scene)).collect(),
         stats: outcome.stats,
     }
 }
@@ -200,6 +208,13 @@ impl std::fmt::Display for Explanation {
             stance_text(&self.furthest),
             self.furthest_distance_to_goal
         )?;
+        for s in &self.region_not_reached_from {
+            writeln!(
+                f,
+                "  from {}: no pose with the link in the region and no leg to one was found",
+                stance_text(s)
+            )?;
+        }
         if self.blocking.is_empty() {
             writeln!(f, "  no switch out of the reached stances was found")?;
         }

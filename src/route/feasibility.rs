@@ -231,7 +231,9 @@ pub fn check_feasibility(
                                 entries.push(entry);
                                 continue;
                             };
-                            match finder.grab(&anchor, qa, e, b, &mut rng)? {
+                            // The widest search a route's switch gets (its last attempt).
+                            let effort = ctx.settings.attempts_per_switch;
+                            match finder.grab(&anchor, qa, e, b, effort, &mut rng)? {
                                 Err(f) => entry.reason = Some(f),
                                 Ok(pose) => {
                                     let target = anchor.clone().with(e.clone(), b);

@@ -6,7 +6,10 @@ use std::time::Instant;
 
 use rand::Rng;
 
-use crate::cspace::{CSpaceError, CSpaceStats, ConfigSpace, ConstrainedSpace, Extension};
+use crate::cspace::{
+    CSpaceError, CSpaceStats, ConfigSpace, ConstrainedSpace, Extension, SamplingBox,
+    SegmentSampling,
+};
 use crate::model::Robot;
 use crate::planner::{rrt_connect, PlanError, RrtSettings};
 use crate::scene::Stance;
@@ -47,7 +50,23 @@ pub(crate) fn plan_leg(
         ctx.walk,
         ctx.verify_resolution(),
     )
-    .map_err(crate::planner::PlanError::from)?;
+    .map_err(crate::planner::PlanError::from)?
+    .with_sampling_box(SamplingBox::around(
+        robot,
+        a,
+        b,
+        ctx.settings.leg_box_margin,
+    ))
+    .with_segment_sampling(
+        SegmentSampling::new(
+            robot,
+            a,
+            b,
+            ctx.settings.leg_sample_spread,
+            ctx.settings.leg_segment_share,
+        )
+        .map_err(crate::planner::PlanError::from)?,
+    );
     let remaining = ctx.remaining().min(ctx.settings.leg_time_limit);
     let settings = RrtSettings::new(
         ctx.settings.leg_step,

@@ -15,6 +15,7 @@ pub mod explain;
 pub mod feasibility;
 pub mod graph;
 mod leg;
+mod region;
 pub mod search;
 pub mod switch;
 
@@ -66,6 +67,13 @@ pub struct RouteSettings {
     pub leg_samples: usize,
     /// Longest extension of the leg planner (joint-space distance).
     pub leg_step: f64,
+    /// Translational sampling box of a leg: the hull of its two ends widened by this much
+    /// (metres; see [`crate::cspace::SamplingBox`]).
+    pub leg_box_margin: f64,
+    /// Share of a leg's samples drawn near the straight segment between its ends, and the
+    /// largest per-coordinate offset of those samples (see [`crate::cspace::SegmentSampling`]).
+    pub leg_segment_share: f64,
+    pub leg_sample_spread: f64,
     /// Wall-clock limit of one leg (a failing leg is a failed switch attempt; results that
     /// hit it depend on the machine's speed).
     pub leg_time_limit: Duration,
@@ -89,6 +97,9 @@ impl Default for RouteSettings {
             min_clearance: 0.005,
             leg_samples: 400,
             leg_step: 0.5,
+            leg_box_margin: 0.4,
+            leg_segment_share: 0.8,
+            leg_sample_spread: 0.6,
             leg_time_limit: Duration::from_secs(6),
             path_tolerance: 1e-3,
             timing_grid: 4,
@@ -136,6 +147,15 @@ impl RouteSettings {
             });
         }
         positive("leg_step", self.leg_step)?;
+        positive("leg_box_margin", self.leg_box_margin)?;
+        positive("leg_sample_spread", self.leg_sample_spread)?;
+        if !(0.0..=1.0).contains(&self.leg_segment_share) {
+            return Err(SettingsError::OutOfRange {
+                name: "leg_segment_share",
+                expected: "between 0 and 1",
+                got: self.leg_segment_share,
+            });
+        }
         positive("path_tolerance", self.path_tolerance)?;
         Ok(())
     }
@@ -318,10 +338,9 @@ fn check_goal(scenario: &Scenario) -> Result<(), RouteError> {
             kind: "configuration",
             why: "a configuration goal belongs to single-stance motions; give a stance or a grip",
         }),
-        Goal::BodyInRegion { .. } => Err(RouteError::UnsupportedGoal {
-            kind: "body_in_region",
-            why: "not implemented for routes yet; give a stance or a grip",
-        }),
+        Goal::BodyInRegion { link, min, max } => {
+            region::RegionGoal::new(robot, &scenario.scene, link, *min, *max).map(|_| ())
+        }
     }
 }
 
@@ -385,9 +404,25 @@ pub fn plan_route(scenario: &Scenario, settings: &RouteSettings) -> Result<Route
         let search = search::Search::new(ctx);
         let graph = search.graph.clone();
         let goal = scenario.goal.clone();
-        let is_goal = |s: &Stance| graph.is_goal(s, &goal).unwrap_or(false);
-        let progress = |s: &Stance| graph.distance_to_goal(s, &goal);
-        let outcome = search.run(&is_goal, &progress)?;
+        let region = match &goal {
+            Goal::BodyInRegion { link, min, max } => Some(region::RegionGoal::new(
+                &scenario.robot,
+                &scenario.scene,
+                link,
+                *min,
+                *max,
+            )?),
+            _ => None,
+        };
+        let is_goal = |s: &Stance| match &region {
+            Some(r) => r.candidate(s),
+            None => graph.is_goal(s, &goal).unwrap_or(false),
+        };
+        let progress = |s: &Stance| match &region {
+            Some(r) => r.distance(s),
+            None => graph.distance_to_goal(s, &goal),
+        };
+        let outcome = search.run(&is_goal, &progress, region.as_ref())?;
         let Some(goal_stance) = outcome.goal.clone() else {
             return Err(RouteError::NoRoute(Box::new(explain::explain(
                 scenario, &graph, &outcome,
@@ -401,12 +436,18 @@ pub fn plan_route(scenario: &Scenario, settings: &RouteSettings) -> Result<Route
             s = a.edge.from.clone();
         }
         arrivals.reverse();
-        let final_q = outcome
-            .reached
-            .get(&goal_stance)
-            .map(|r| r.q.clone())
-            .unwrap_or_else(|| scenario.start.q.clone());
-        let mut route = assemble(ctx, scenario, &arrivals, &goal_stance, &final_q)?;
+        let final_leg = match &outcome.final_leg {
+            Some(path) => path.clone(),
+            None => vec![outcome
+                .reached
+                .get(&goal_stance)
+                .map(|r| r.q.clone())
+                .unwrap_or_else(|| scenario.start.q.clone())],
+        };
+        let mut route = assemble(ctx, scenario, &arrivals, &goal_stance, final_leg)?;
+        if let Some(r) = &region {
+            check_in_region(ctx, r, &route)?;
+        }
         route.stats = RouteStats {
             search: outcome.stats,
             stances_reached: outcome.reached.len(),
@@ -414,6 +455,35 @@ pub fn plan_route(scenario: &Scenario, settings: &RouteSettings) -> Result<Route
         };
         Ok(route)
     })
+}
+
+/// The route's last configuration must hold the region goal's link inside its box.
+fn check_in_region(
+    ctx: &Context<'_>,
+    region: &region::RegionGoal,
+    route: &Route,
+) -> Result<(), RouteError> {
+    let Some(q) = route.legs.last().and_then(|l| l.path.last()) else {
+        return Err(RouteError::VerificationFailed {
+            what: "the goal region".into(),
+            defects: "the route has no configuration".into(),
+        });
+    };
+    let mut poses = vec![crate::math::Pose::identity(); ctx.robot.links().len()];
+    crate::kinematics::forward_kinematics(ctx.robot, q, &mut poses)
+        .map_err(ConstraintError::from)?;
+    let p = nalgebra::Point3::from(poses[region.link].translation.vector);
+    if region.contains(&p) {
+        Ok(())
+    } else {
+        Err(RouteError::VerificationFailed {
+            what: "the goal region".into(),
+            defects: format!(
+                "link `{}` ends at ({:.4}, {:.4}, {:.4}), outside the region",
+                region.link_name, p.x, p.y, p.z
+            ),
+        })
+    }
 }
 
 /// Check the settings and the scenario, build what planning shares, and run `f` with it.
@@ -449,7 +519,7 @@ fn assemble(
     scenario: &Scenario,
     arrivals: &[search::Arrival],
     goal: &Stance,
-    final_q: &[f64],
+    final_leg: Vec<Vec<f64>>,
 ) -> Result<Route, RouteError> {
     let robot = ctx.robot;
     let finder = switch::SwitchFinder::new(ctx);
@@ -466,7 +536,7 @@ fn assemble(
         .iter()
         .map(|a| (a.edge.from.clone(), a.leg.clone()))
         .collect();
-    pieces.push((goal.clone(), vec![final_q.to_vec()]));
+    pieces.push((goal.clone(), final_leg));
     for (k, (stance, path)) in pieces.into_iter().enumerate() {
         let stack = stance.constraints(robot, ctx.scene, ctx.constant)?;
         let report = verify_path(robot, &stack, ctx.collision, &path, &vs)?;

@@ -20,6 +20,7 @@ use rand_chacha::ChaCha8Rng;
 
 use super::graph::{EdgeWeights, StanceGraph, SwitchEdge};
 use super::leg::plan_leg;
+use super::region::{finish, RegionGoal};
 use super::switch::{SwitchFailure, SwitchFinder, SwitchPose};
 use super::{Context, RouteError};
 use crate::scene::Stance;
@@ -77,6 +78,10 @@ pub(crate) struct SearchOutcome {
     pub stats: SearchStats,
     /// True when the search ran out of candidate sequences.
     pub exhausted: bool,
+    /// For a region goal: the last leg inside the goal stance, into the region.
+    pub final_leg: Option<Vec<Vec<f64>>>,
+    /// Candidate goal stances struck off because no last leg into the region was found.
+    pub struck: BTreeSet<Stance>,
 }
 
 #[derive(PartialEq)]
@@ -106,6 +111,8 @@ pub(crate) struct Search<'c, 'a> {
     weights: EdgeWeights,
     dropped: BTreeSet<SwitchEdge>,
     neighbours: BTreeMap<Stance, Vec<SwitchEdge>>,
+    /// Candidate goal stances struck off (region goals whose last leg failed).
+    struck: BTreeSet<Stance>,
 }
 
 impl<'c, 'a> Search<'c, 'a> {
@@ -116,6 +123,7 @@ impl<'c, 'a> Search<'c, 'a> {
             weights: EdgeWeights::default(),
             dropped: BTreeSet::new(),
             neighbours: BTreeMap::new(),
+            struck: BTreeSet::new(),
         }
     }
 
@@ -162,7 +170,7 @@ impl<'c, 'a> Search<'c, 'a> {
             if !done.insert(stance.clone()) {
                 continue;
             }
-            if is_goal(&stance) {
+            if is_goal(&stance) && !self.struck.contains(&stance) {
                 return Some((path_to(&prev, stance), true));
             }
             let d = progress(&stance);
@@ -205,6 +213,7 @@ impl<'c, 'a> Search<'c, 'a> {
         finder: &SwitchFinder<'_, '_>,
         edge: &SwitchEdge,
         q: &[f64],
+        effort: usize,
         rng: &mut R,
         stats: &mut SearchStats,
     ) -> Result<Result<Arrival, SwitchFailure>, RouteError> {
@@ -223,7 +232,7 @@ impl<'c, 'a> Search<'c, 'a> {
             }));
         }
         let t = std::time::Instant::now();
-        let found = finder.grab(&edge.from, q, &edge.effector, edge.hold, rng)?;
+        let found = finder.grab(&edge.from, q, &edge.effector, edge.hold, effort, rng)?;
         stats.switch_pose_seconds += t.elapsed().as_secs_f64();
         let pose = match found {
             Ok(p) => p,
@@ -247,11 +256,13 @@ impl<'c, 'a> Search<'c, 'a> {
         }
     }
 
-    /// Run the search from the start.
+    /// Run the search from the start. With `region`, a goal stance is only a candidate: the
+    /// search finishes there with a last leg into the region, or strikes it off and goes on.
     pub(crate) fn run(
         mut self,
         is_goal: &dyn Fn(&Stance) -> bool,
         progress: &dyn Fn(&Stance) -> f64,
+        region: Option<&RegionGoal>,
     ) -> Result<SearchOutcome, RouteError> {
         let ctx = self.ctx;
         let start = ctx.start.stance.clone();
@@ -269,9 +280,36 @@ impl<'c, 'a> Search<'c, 'a> {
         let mut rng = ChaCha8Rng::seed_from_u64(ctx.limits.seed);
         let finder = SwitchFinder::new(ctx);
         let mut goal = None;
+        let mut final_leg = None;
         let mut exhausted = false;
+        // Finish in a reached goal stance: at once, or (region goals) with a last leg.
+        let mut arrive = |search: &mut Self,
+                          stance: &Stance,
+                          reached: &BTreeMap<Stance, Reached>,
+                          rng: &mut ChaCha8Rng|
+         -> Result<bool, RouteError> {
+            let Some(region) = region else {
+                return Ok(true);
+            };
+            let Some(here) = reached.get(stance) else {
+                return Ok(false);
+            };
+            match finish(ctx, region, stance, &here.q, rng)? {
+                Some(path) => {
+                    final_leg = Some(path);
+                    Ok(true)
+                }
+                None => {
+                    search.struck.insert(stance.clone());
+                    Ok(false)
+                }
+            }
+        };
         loop {
-            if is_goal(&start) {
+            if is_goal(&start)
+                && !self.struck.contains(&start)
+                && arrive(&mut self, &start, &reached, &mut rng)?
+            {
                 goal = Some(start.clone());
                 break;
             }
@@ -289,12 +327,16 @@ impl<'c, 'a> Search<'c, 'a> {
                 .rposition(|s| reached.contains_key(s))
                 .unwrap_or(0);
             if k + 1 == seq.len() {
-                if to_goal {
-                    goal = seq.last().cloned();
-                } else {
+                if !to_goal {
                     exhausted = true; // as close to the goal as the graph allows
+                    break;
                 }
-                break;
+                let last = seq[k].clone();
+                if arrive(&mut self, &last, &reached, &mut rng)? {
+                    goal = Some(last);
+                    break;
+                }
+                continue; // struck off: look for another goal stance
             }
             let (from, to) = (&seq[k], &seq[k + 1]);
             let Some(edge) = self.edges(from).into_iter().find(|e| &e.to == to) else {
@@ -309,7 +351,8 @@ impl<'c, 'a> Search<'c, 'a> {
             stats.switch_attempts += 1;
             let record = records.entry(edge.clone()).or_default();
             record.attempts += 1;
-            match self.attempt(&finder, &edge, &q, &mut rng, &mut stats)? {
+            let effort = record.attempts;
+            match self.attempt(&finder, &edge, &q, effort, &mut rng, &mut stats)? {
                 Ok(arrival) => {
                     reached.insert(
                         to.clone(),
@@ -340,6 +383,8 @@ impl<'c, 'a> Search<'c, 'a> {
             records,
             stats,
             exhausted,
+            final_leg,
+            struck: self.struck,
         })
     }
 }

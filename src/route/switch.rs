@@ -241,15 +241,20 @@ impl<'c, 'a> SwitchFinder<'c, 'a> {
     }
 
     /// A pose satisfying `from` (current configuration `q_from`) and `from` + `effector` on
-    /// `hold`, or the reason none was found. `rng` draws the seeds.
+    /// `hold`, or the reason none was found. `rng` draws the seeds. `effort` (1 for a first
+    /// attempt, counting up with the switch's attempts) widens the search: `effort` times the
+    /// settings' seeds, spread over `1 + (effort - 1) / 2` times the settings' spread, so a
+    /// switch that failed near the current configuration looks farther away next time.
     pub(crate) fn grab<R: Rng + ?Sized>(
         &self,
         from: &Stance,
         q_from: &[f64],
         effector: &str,
         hold: usize,
+        effort: usize,
         rng: &mut R,
     ) -> Result<Result<SwitchPose, SwitchFailure>, RouteError> {
+        let effort = effort.max(1);
         let ctx = self.ctx;
         let robot = ctx.robot;
         let h = ctx.scene.holds.get(hold).ok_or_else(|| {
@@ -262,8 +267,8 @@ impl<'c, 'a> SwitchFinder<'c, 'a> {
                 .constraints(robot, ctx.scene, ctx.constant)?;
         // Seeds: the current configuration, then random perturbations of it.
         let mut seeds = vec![q_from.to_vec()];
-        let spread = ctx.settings.seed_spread;
-        for _ in 1..ctx.settings.switch_seeds {
+        let spread = ctx.settings.seed_spread * (1.0 + 0.5 * (effort - 1) as f64);
+        for _ in 1..ctx.settings.switch_seeds * effort {
             let dv: Vec<f64> = (0..robot.nv())
                 .map(|_| rng.random_range(-spread..=spread))
                 .collect();
