@@ -54,11 +54,10 @@ fn long_corridor_in(dir: &Path) -> PathBuf {
 }
 
 fn sigint(child: &Child) {
-    let ok = Command::new("kill")
-        .args(["-INT", &child.id().to_string()])
-        .status()
-        .unwrap();
-    assert!(ok.success());
+    use nix::sys::signal::{kill, Signal};
+    use nix::unistd::Pid;
+    let pid = i32::try_from(child.id()).unwrap();
+    kill(Pid::from_raw(pid), Signal::SIGINT).unwrap();
 }
 
 fn wait_with_timeout(child: &mut Child, limit: Duration) -> Option<i32> {
