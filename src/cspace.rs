@@ -146,19 +146,11 @@ impl SegmentSampling {
         robot
             .check_configuration(b)
             .map_err(ConstraintError::from)?;
-        if !(0.0..=1.0).contains(&share) {
-            return Err(SettingsError::OutOfRange {
-                name: "share",
-                expected: "between 0 and 1",
-                got: share,
-            }
-            .into());
-        }
         Ok(SegmentSampling {
             a: a.to_vec(),
             b: b.to_vec(),
             spread: positive("spread", spread)?,
-            share,
+            share: crate::settings::share("share", share)?,
         })
     }
 

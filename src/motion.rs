@@ -37,7 +37,7 @@ use crate::planner::{lazy_prm, rrt_connect, Plan, PlanError, PlanStats, PrmSetti
 use crate::projection::{project, ProjectionBuffer, ProjectionSettings};
 use crate::scenario::{Goal, Scenario};
 use crate::scene::SceneError;
-use crate::settings::{positive, SettingsError};
+use crate::settings::{positive, share, SettingsError};
 use crate::shortcut::{shorten, ShortenError, ShortenSettings};
 use crate::timing::{
     parameterize_with, robot_limits, Discretization, PathSamples, Profile, TimingError,
@@ -147,13 +147,7 @@ impl MotionSettings {
         fraction("verify_fraction", self.verify_fraction, 0.1, "in (0, 0.1]")?;
         fraction("plan_fraction", self.plan_fraction, 1.0, "in (0, 1]")?;
         positive("segment_spread", self.segment_spread)?;
-        if !(0.0..=1.0).contains(&self.segment_share) {
-            return Err(SettingsError::OutOfRange {
-                name: "segment_share",
-                expected: "between 0 and 1",
-                got: self.segment_share,
-            });
-        }
+        share("segment_share", self.segment_share)?;
         if let Some(m) = self.sampling_margin {
             if !(m.is_finite() && m >= 0.0) {
                 return Err(SettingsError::OutOfRange {

@@ -26,3 +26,16 @@ pub(crate) fn positive(name: &'static str, v: f64) -> Result<f64, SettingsError>
         })
     }
 }
+
+/// `v` if it is a share: between 0 and 1 (both included).
+pub(crate) fn share(name: &'static str, v: f64) -> Result<f64, SettingsError> {
+    if (0.0..=1.0).contains(&v) {
+        Ok(v)
+    } else {
+        Err(SettingsError::OutOfRange {
+            name,
+            expected: "between 0 and 1",
+            got: v,
+        })
+    }
+}

@@ -33,7 +33,7 @@ use crate::planner::PlanError;
 use crate::projection::ProjectionSettings;
 use crate::scenario::{Goal, Scenario, ScenarioLimits, Start};
 use crate::scene::{Scene, SceneError, Stance};
-use crate::settings::{positive, SettingsError};
+use crate::settings::{positive, share, SettingsError};
 use crate::timing::{time_polyline, TimingError};
 use crate::verify::{verify_path, VerifyError, VerifySettings};
 use crate::walk::WalkSettings;
@@ -149,13 +149,7 @@ impl RouteSettings {
         positive("leg_step", self.leg_step)?;
         positive("leg_box_margin", self.leg_box_margin)?;
         positive("leg_sample_spread", self.leg_sample_spread)?;
-        if !(0.0..=1.0).contains(&self.leg_segment_share) {
-            return Err(SettingsError::OutOfRange {
-                name: "leg_segment_share",
-                expected: "between 0 and 1",
-                got: self.leg_segment_share,
-            });
-        }
+        share("leg_segment_share", self.leg_segment_share)?;
         positive("path_tolerance", self.path_tolerance)?;
         Ok(())
     }
