@@ -85,7 +85,9 @@ pub struct ProjectionReport {
     pub iterations: usize,
     /// Residual norm at the returned configuration.
     pub residual: f64,
-    /// Evaluations of the constraint stack (with Jacobian) spent, rejected steps included.
+    /// Evaluations of the constraint stack (forward kinematics and residual) spent, rejected
+    /// steps included. The Jacobian is computed at the start and at every accepted point
+    /// that is not the last.
     pub evaluations: usize,
 }
 
@@ -98,12 +100,17 @@ impl ProjectionReport {
 /// Buffers for projecting onto one stack on one robot. Create once per thread, reuse.
 #[derive(Clone, Debug)]
 pub struct ProjectionBuffer {
+    /// After [`project`], `stack.residual` is the residual at the returned configuration;
+    /// `stack.jacobian` may be that of an earlier point.
     pub stack: StackBuffer,
     /// `J J^T + lambda I`, then its Cholesky factor (`rows x rows`, column-major).
     normal: Vec<f64>,
     y: Vec<f64>,
     dq: DVector<f64>,
     q_try: Vec<f64>,
+    /// The residual at the current configuration, kept while a trial step overwrites the
+    /// stack's residual.
+    residual_at_q: Vec<f64>,
     /// For each tangent coordinate of a one-DOF joint: its `q` index and position limits.
     bounds: Vec<Option<(usize, f64, f64)>>,
     /// Tangent coordinates held at a limit during the current step.
@@ -128,6 +135,7 @@ impl ProjectionBuffer {
             y: vec![0.0; m],
             dq: DVector::zeros(robot.nv()),
             q_try: vec![0.0; robot.nq()],
+            residual_at_q: vec![0.0; m],
             bounds,
             held: vec![false; robot.nv()],
         }
@@ -314,11 +322,16 @@ pub fn project(
     let m = buf.stack.jacobian.nrows();
     buf.normal.resize(m * m, 0.0);
     buf.y.resize(m, 0.0);
+    buf.residual_at_q.resize(m, 0.0);
     robot.clamp_to_limits(q);
     let mut err = stack.evaluate(robot, q, &mut buf.stack, true)?;
+    buf.residual_at_q
+        .copy_from_slice(buf.stack.residual.as_slice());
     let mut evaluations = 1;
     let mut lambda = LAMBDA_START;
     let mut iterations = 0;
+    // At the top of the loop `buf.stack` holds the residual and the Jacobian at `q`, and
+    // `buf.residual_at_q` a copy of that residual.
     loop {
         if err <= settings.tolerance {
             return Ok(ProjectionReport {
@@ -366,17 +379,29 @@ pub fn project(
             }
             robot.integrate(q, buf.dq.as_slice(), &mut buf.q_try)?;
             let clamped = robot.clamp_to_limits(&mut buf.q_try);
-            let trial = stack.evaluate(robot, &buf.q_try, &mut buf.stack, true)?;
+            // The trial needs the residual alone: the Jacobian at `q` stays in the buffer in
+            // case the step is rejected, and the one at the new point is computed (from the
+            // link poses this evaluation leaves behind) only once the step is accepted and
+            // another step will follow.
+            let trial = stack.evaluate(robot, &buf.q_try, &mut buf.stack, false)?;
             evaluations += 1;
             if trial < err {
                 q.copy_from_slice(&buf.q_try);
                 err = trial;
                 lambda = (lambda * 0.1).max(LAMBDA_MIN);
+                if err > settings.tolerance && iterations < settings.max_iterations {
+                    stack.evaluate_at_poses(robot, &mut buf.stack, true)?;
+                    buf.residual_at_q
+                        .copy_from_slice(buf.stack.residual.as_slice());
+                }
                 break;
             }
-            // Rejected: restore the Jacobian at q and damp harder.
-            stack.evaluate(robot, q, &mut buf.stack, true)?;
-            evaluations += 1;
+            // Rejected: put back the residual at q (its Jacobian was not touched) and damp
+            // harder.
+            buf.stack
+                .residual
+                .as_mut_slice()
+                .copy_from_slice(&buf.residual_at_q);
             if lambda >= LAMBDA_MAX {
                 let stop = if clamped || any_held {
                     StopReason::BlockedByLimits
