@@ -115,7 +115,14 @@ fn arm_stack(
             .with(FrameMatch::point_grip(robot, "hand", hold, MatchMode::Position).unwrap())
             .with(KeepLevel::new(hand, Vector3::z(), up, 0.0, "level").unwrap()),
         // The grip starts 5 cm beyond the end of the bar: the one-sided row is active.
-        6 => s.with(bar_through(robot, "hand", &hold, 0.3, 0.3 + 0.05 / 0.3, true)),
+        6 => s.with(bar_through(
+            robot,
+            "hand",
+            &hold,
+            0.3,
+            0.3 + 0.05 / 0.3,
+            true,
+        )),
         // Keep-level one-sided row violated at the start (tight angle about a tilted up).
         _ => {
             let tilted = (hand.pose(&poses) * jitter(rng, 0.0, 0.6)).rotation * Vector3::z();
@@ -257,10 +264,7 @@ fn all_cases() -> Vec<Value> {
         }
     }
 
-    for (name, robot, kinds) in [
-        ("arm7", common::arm7(), 8u8),
-        ("twin", common::twin(), 5u8),
-    ] {
+    for (name, robot, kinds) in [("arm7", common::arm7(), 8u8), ("twin", common::twin(), 5u8)] {
         let mut rng = ChaCha8Rng::seed_from_u64(77);
         for kind in 0..kinds {
             for far in [false, true] {
@@ -364,8 +368,7 @@ fn projection_matches_the_recorded_outcomes() {
                 );
                 continue;
             }
-            let dr = (got["residual"].as_f64().unwrap() - want["residual"].as_f64().unwrap())
-                .abs();
+            let dr = (got["residual"].as_f64().unwrap() - want["residual"].as_f64().unwrap()).abs();
             worst = worst.max(dr);
             if dr > TOL {
                 let _ = writeln!(failures, "{name}: residual differs by {dr:.3e}");
