@@ -305,7 +305,7 @@ fn all_cases() -> Vec<Value> {
     let robot = &*sc.robot;
     out.push(json!({ "case": "climber start configuration", "q": sc.start.q }));
     let mut stances = vec![sc.start.stance.clone()];
-    for (eff, _) in &sc.start.stance.grips {
+    for eff in sc.start.stance.grips.keys() {
         for h in 0..sc.scene.holds.len() {
             stances.push(sc.start.stance.clone().with(eff.clone(), h));
         }
