@@ -60,13 +60,18 @@ fn child_pose(parent: &Pose, j: &Joint, q: &[f64]) -> Pose {
     let or = j.origin.rotation.matrix();
     let ot = &j.origin.translation.vector;
     let i = j.q_index;
+    // Most joint origins carry no rotation (robot files often give only `xyz`): skip the 3x3
+    // product then (27 multiplications against at most nine comparisons). Multiplying by the
+    // identity is exact, so the result is the same either way.
+    let w = if *or == Matrix3::identity() {
+        *pr
+    } else {
+        pr * or
+    };
     let (r, t) = match &j.kind {
-        JointKind::Revolute { axis } => (rotate_about(&(pr * or), axis, q[i]), pr * ot + pt),
-        JointKind::Prismatic { axis } => {
-            let w = pr * or;
-            (w, pr * ot + pt + w * (axis.into_inner() * q[i]))
-        }
-        JointKind::Fixed => (pr * or, pr * ot + pt),
+        JointKind::Revolute { axis } => (rotate_about(&w, axis, q[i]), pr * ot + pt),
+        JointKind::Prismatic { axis } => (w, pr * ot + pt + w * (axis.into_inner() * q[i])),
+        JointKind::Fixed => (w, pr * ot + pt),
         JointKind::Floating => {
             let rq = UnitQuaternion::new_normalize(Quaternion::new(
                 q[i + 6],
@@ -74,7 +79,6 @@ fn child_pose(parent: &Pose, j: &Joint, q: &[f64]) -> Pose {
                 q[i + 4],
                 q[i + 5],
             ));
-            let w = pr * or;
             (
                 w * rq.to_rotation_matrix().matrix(),
                 pr * ot + pt + w * Vector3::new(q[i], q[i + 1], q[i + 2]),

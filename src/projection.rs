@@ -85,7 +85,9 @@ pub struct ProjectionReport {
     pub iterations: usize,
     /// Residual norm at the returned configuration.
     pub residual: f64,
-    /// Evaluations of the constraint stack (with Jacobian) spent, rejected steps included.
+    /// Evaluations of the constraint stack (forward kinematics and residual) spent, rejected
+    /// steps included. The Jacobian is computed at the start and at every accepted point
+    /// that is not the last.
     pub evaluations: usize,
 }
 
@@ -98,14 +100,24 @@ impl ProjectionReport {
 /// Buffers for projecting onto one stack on one robot. Create once per thread, reuse.
 #[derive(Clone, Debug)]
 pub struct ProjectionBuffer {
+    /// After [`project`], `stack.residual` is the residual at the returned configuration;
+    /// `stack.jacobian` may be that of an earlier point.
     pub stack: StackBuffer,
     /// `J J^T + lambda I`, then its Cholesky factor (`rows x rows`, column-major).
     normal: Vec<f64>,
     y: Vec<f64>,
     dq: DVector<f64>,
     q_try: Vec<f64>,
+    /// The residual at the current configuration, kept while a trial step overwrites the
+    /// stack's residual.
+    residual_at_q: Vec<f64>,
     /// For each tangent coordinate of a one-DOF joint: its `q` index and position limits.
     bounds: Vec<Option<(usize, f64, f64)>>,
+    /// When every joint has at most one coordinate (no floating joint): `(q index, tangent
+    /// index, lower, upper)` of each moving joint, so a step is integrated and clamped in one
+    /// pass. `Robot::integrate` and `Robot::clamp_to_limits` do the same for these joints
+    /// through their general per-joint dispatch (a tenth of a projection, callgrind).
+    one_dof: Option<Vec<(usize, usize, f64, f64)>>,
     /// Tangent coordinates held at a limit during the current step.
     held: Vec<bool>,
 }
@@ -122,12 +134,26 @@ impl ProjectionBuffer {
                 bounds[j.v_index] = Some((j.q_index, j.limits[0].lower, j.limits[0].upper));
             }
         }
+        let mut one_dof = Some(Vec::with_capacity(robot.nv()));
+        for j in robot.joints() {
+            match (&j.kind, j.limits.first()) {
+                (JointKind::Revolute { .. } | JointKind::Prismatic { .. }, Some(l)) => {
+                    if let Some(v) = one_dof.as_mut() {
+                        v.push((j.q_index, j.v_index, l.lower, l.upper));
+                    }
+                }
+                (JointKind::Fixed, _) => {}
+                _ => one_dof = None,
+            }
+        }
         ProjectionBuffer {
+            one_dof,
             stack: stack.buffer(robot),
             normal: vec![0.0; m * m],
             y: vec![0.0; m],
             dq: DVector::zeros(robot.nv()),
             q_try: vec![0.0; robot.nq()],
+            residual_at_q: vec![0.0; m],
             bounds,
             held: vec![false; robot.nv()],
         }
@@ -152,19 +178,100 @@ const HOLD_PASSES: usize = 4;
 /// docs/performance.md).
 ///
 /// The row counts of the common stacks (a position grip, an axis grip, a point grip) get
-/// their own copies with `m` a compile-time constant, so the short loops are unrolled: that
-/// halves the instructions of a step for 6 rows (callgrind).
+/// their own copies on fixed-size stack arrays ([`damped_step_fixed`]): the loops unroll and
+/// the bounds checks go away. Both versions do the same operations in the same order, so
+/// they give the same step to the last bit (tests/projection_equivalence.rs).
 fn damped_step(buf: &mut ProjectionBuffer, lambda: f64) -> bool {
     match buf.stack.jacobian.nrows() {
-        3 => damped_step_rows(buf, lambda, 3),
-        5 => damped_step_rows(buf, lambda, 5),
-        6 => damped_step_rows(buf, lambda, 6),
+        3 => damped_step_fixed::<3>(buf, lambda),
+        5 => damped_step_fixed::<5>(buf, lambda),
+        6 => damped_step_fixed::<6>(buf, lambda),
         m => damped_step_rows(buf, lambda, m),
     }
 }
 
-/// [`damped_step`] for a Jacobian of `m` rows.
+/// [`damped_step`] for a Jacobian of `M` rows, on stack arrays. `a[k]` is column `k` of
+/// `J J^T + lambda I` (lower triangle used), then of its Cholesky factor.
 #[inline(always)]
+fn damped_step_fixed<const M: usize>(buf: &mut ProjectionBuffer, lambda: f64) -> bool {
+    let jd = buf.stack.jacobian.as_slice();
+    let cols = || {
+        jd.chunks_exact(M)
+            .filter_map(|c| <&[f64; M]>::try_from(c).ok())
+    };
+    let mut a = [[0.0; M]; M];
+    for (col, held) in cols().zip(&buf.held) {
+        if *held {
+            continue;
+        }
+        // Lower triangle of the rank-one update col col^T, skipping zero entries of `col`
+        // like `damped_step_rows` (same sums in the same order).
+        for (k, &ck) in col.iter().enumerate() {
+            if ck == 0.0 {
+                continue;
+            }
+            for i in k..M {
+                a[k][i] += col[i] * ck;
+            }
+        }
+    }
+    for (i, c) in a.iter_mut().enumerate() {
+        c[i] += lambda;
+    }
+    // Cholesky, column by column (the order of `cholesky_in_place`).
+    for j in 0..M {
+        for k in 0..j {
+            let ak = a[k];
+            let f = ak[j];
+            for i in j..M {
+                a[j][i] -= f * ak[i];
+            }
+        }
+        let d = a[j][j];
+        // A NaN pivot fails too (it is not greater than zero).
+        if d.partial_cmp(&0.0) != Some(std::cmp::Ordering::Greater) {
+            return false;
+        }
+        let d = d.sqrt();
+        a[j][j] = d;
+        for x in &mut a[j][j + 1..] {
+            *x /= d;
+        }
+    }
+    let mut y = [0.0; M];
+    for (y, f) in y.iter_mut().zip(buf.stack.residual.as_slice()) {
+        *y = -f;
+    }
+    // L z = y, forward; then L^T x = z, backward (as `cholesky_solve_in_place`).
+    for i in 0..M {
+        let zi = y[i] / a[i][i];
+        y[i] = zi;
+        for r in i + 1..M {
+            y[r] -= zi * a[i][r];
+        }
+    }
+    for i in (0..M).rev() {
+        let mut dot = 0.0;
+        for r in i + 1..M {
+            dot += a[i][r] * y[r];
+        }
+        y[i] = (y[i] - dot) / a[i][i];
+    }
+    for ((dq, col), held) in buf.dq.as_mut_slice().iter_mut().zip(cols()).zip(&buf.held) {
+        *dq = if *held {
+            0.0
+        } else {
+            let mut s = 0.0;
+            for r in 0..M {
+                s += col[r] * y[r];
+            }
+            s
+        };
+    }
+    true
+}
+
+/// [`damped_step`] for a Jacobian of `m` rows.
 fn damped_step_rows(buf: &mut ProjectionBuffer, lambda: f64, m: usize) -> bool {
     if m == 0 {
         buf.dq.fill(0.0);
@@ -314,11 +421,16 @@ pub fn project(
     let m = buf.stack.jacobian.nrows();
     buf.normal.resize(m * m, 0.0);
     buf.y.resize(m, 0.0);
+    buf.residual_at_q.resize(m, 0.0);
     robot.clamp_to_limits(q);
     let mut err = stack.evaluate(robot, q, &mut buf.stack, true)?;
+    buf.residual_at_q
+        .copy_from_slice(buf.stack.residual.as_slice());
     let mut evaluations = 1;
     let mut lambda = LAMBDA_START;
     let mut iterations = 0;
+    // At the top of the loop `buf.stack` holds the residual and the Jacobian at `q`, and
+    // `buf.residual_at_q` a copy of that residual.
     loop {
         if err <= settings.tolerance {
             return Ok(ProjectionReport {
@@ -364,19 +476,47 @@ pub fn project(
             if norm > settings.max_step {
                 buf.dq *= settings.max_step / norm;
             }
-            robot.integrate(q, buf.dq.as_slice(), &mut buf.q_try)?;
-            let clamped = robot.clamp_to_limits(&mut buf.q_try);
-            let trial = stack.evaluate(robot, &buf.q_try, &mut buf.stack, true)?;
+            let clamped = match &buf.one_dof {
+                Some(coords) if buf.q_try.len() == q.len() => {
+                    let (dq, q_try) = (buf.dq.as_slice(), &mut buf.q_try);
+                    q_try.copy_from_slice(q);
+                    let mut moved = false;
+                    for &(qi, vi, lo, hi) in coords {
+                        let x = q[qi] + dq[vi];
+                        let c = x.clamp(lo, hi);
+                        moved |= c != x;
+                        q_try[qi] = c;
+                    }
+                    moved
+                }
+                _ => {
+                    robot.integrate(q, buf.dq.as_slice(), &mut buf.q_try)?;
+                    robot.clamp_to_limits(&mut buf.q_try)
+                }
+            };
+            // The trial needs the residual alone: the Jacobian at `q` stays in the buffer in
+            // case the step is rejected, and the one at the new point is computed (from the
+            // link poses this evaluation leaves behind) only once the step is accepted and
+            // another step will follow.
+            let trial = stack.evaluate(robot, &buf.q_try, &mut buf.stack, false)?;
             evaluations += 1;
             if trial < err {
                 q.copy_from_slice(&buf.q_try);
                 err = trial;
                 lambda = (lambda * 0.1).max(LAMBDA_MIN);
+                if err > settings.tolerance && iterations < settings.max_iterations {
+                    stack.evaluate_at_poses(robot, &mut buf.stack, true)?;
+                    buf.residual_at_q
+                        .copy_from_slice(buf.stack.residual.as_slice());
+                }
                 break;
             }
-            // Rejected: restore the Jacobian at q and damp harder.
-            stack.evaluate(robot, q, &mut buf.stack, true)?;
-            evaluations += 1;
+            // Rejected: put back the residual at q (its Jacobian was not touched) and damp
+            // harder.
+            buf.stack
+                .residual
+                .as_mut_slice()
+                .copy_from_slice(&buf.residual_at_q);
             if lambda >= LAMBDA_MAX {
                 let stop = if clamped || any_held {
                     StopReason::BlockedByLimits

@@ -145,7 +145,9 @@ impl Constraint for FrameMatch {
         let (ra, rb) = (pa.rotation.matrix(), pb.rotation.matrix());
 
         // Orientation residual, and the 3x3 maps taking each frame's world angular velocity to
-        // the residual's rate (for `b` also the extra term of a moving basis).
+        // the residual's rate (for `b` also the extra term of a moving basis). The maps are
+        // needed only for the Jacobian: projection's trial steps ask for the residual alone.
+        let want_maps = jacobian.is_some();
         let mut map_a = Matrix3::zeros();
         let mut map_b = Matrix3::zeros();
         match self.mode {
@@ -153,27 +155,31 @@ impl Constraint for FrameMatch {
             MatchMode::Full => {
                 let phi = rotation_log(&(pb.rotation.inverse() * pa.rotation));
                 residual[3..6].copy_from_slice(phi.as_slice());
-                // d phi = Jr^-1(phi) R_a^T (w_a - w_b)
-                map_a = so3_right_jacobian_inv(&phi) * ra.transpose();
-                map_b = -map_a;
+                if want_maps {
+                    // d phi = Jr^-1(phi) R_a^T (w_a - w_b)
+                    map_a = so3_right_jacobian_inv(&phi) * ra.transpose();
+                    map_b = -map_a;
+                }
             }
             MatchMode::TurnAbout(axis) => {
                 let h = rb * axis.into_inner();
                 let a = ra * axis.into_inner();
                 let (s, ds_da) = swing(&h, &a);
-                let (_, ds_dh_neg) = swing(&a, &h); // swing(h, a) = -swing(a, h)
                 let (u1b, u2b) = perpendicular_basis(&axis);
                 let (u1, u2) = (rb * u1b, rb * u2b);
                 residual[3] = u1.dot(&s);
                 residual[4] = u2.dot(&s);
-                // da = -[a]x w_a, dh = -[h]x w_b, du = w_b x u.
-                let sa = ds_da * (-skew(&a));
-                let sb = -ds_dh_neg * (-skew(&h));
-                for (k, u) in [u1, u2].iter().enumerate() {
-                    let ra_row = u.transpose() * sa;
-                    let rb_row = u.transpose() * sb + u.cross(&s).transpose();
-                    map_a.set_row(k, &ra_row);
-                    map_b.set_row(k, &rb_row);
+                if want_maps {
+                    let (_, ds_dh_neg) = swing(&a, &h); // swing(h, a) = -swing(a, h)
+                                                        // da = -[a]x w_a, dh = -[h]x w_b, du = w_b x u.
+                    let sa = ds_da * (-skew(&a));
+                    let sb = -ds_dh_neg * (-skew(&h));
+                    for (k, u) in [u1, u2].iter().enumerate() {
+                        let ra_row = u.transpose() * sa;
+                        let rb_row = u.transpose() * sb + u.cross(&s).transpose();
+                        map_a.set_row(k, &ra_row);
+                        map_b.set_row(k, &rb_row);
+                    }
                 }
             }
         }

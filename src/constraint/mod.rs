@@ -217,7 +217,35 @@ impl ConstraintStack {
             });
         }
         forward_kinematics(robot, q, &mut buf.poses)?;
+        self.evaluate_at_poses(robot, buf, with_jacobian)
+    }
+
+    /// As [`ConstraintStack::evaluate`], at the link poses already in `buf.poses` (left there
+    /// by the last `evaluate` on this buffer). Projection computes the Jacobian this way at a
+    /// point whose residual it has just evaluated, without a second forward-kinematics pass.
+    pub fn evaluate_at_poses(
+        &self,
+        robot: &Robot,
+        buf: &mut StackBuffer,
+        with_jacobian: bool,
+    ) -> Result<f64, ConstraintError> {
+        if buf.jacobian.nrows() != self.rows
+            || buf.jacobian.ncols() != robot.nv()
+            || buf.residual.len() != self.rows
+        {
+            return Err(ConstraintError::WrongRobot {
+                expected: buf.jacobian.ncols(),
+                got: robot.nv(),
+            });
+        }
         let n_links = robot.links().len();
+        if buf.poses.len() != n_links {
+            return Err(KinematicsError::PoseBuffer {
+                got: buf.poses.len(),
+                expected: n_links,
+            }
+            .into());
+        }
         for c in &self.items {
             let link = c.max_link();
             if link >= n_links {
