@@ -73,7 +73,7 @@ fn malformed_files_name_the_field() {
     let q = q_json(&s.start.q);
     let short = q_json(&s.start.q[..3]);
     let cases = [
-        (format!(r#"{{"legs": 3}}"#), "legs"),
+        (r#"{"legs": 3}"#.to_string(), "legs"),
         (
             format!(r#"{{"legs": [{{"path": [{q}]}}]}}"#),
             "legs[0].stance",
@@ -91,11 +91,11 @@ fn malformed_files_name_the_field() {
             "legs[0].path[1]",
         ),
         (
-            format!(r#"{{"legs": [{{"stance": {{}}, "path": [[1, "x", 3, 4, 5, 6, 7]]}}]}}"#),
+            r#"{"legs": [{"stance": {}, "path": [[1, "x", 3, 4, 5, 6, 7]]}]}"#.to_string(),
             "legs[0].path[0]",
         ),
         (
-            format!(r#"{{"legs": [{{"stance": {{}}, "path": []}}]}}"#),
+            r#"{"legs": [{"stance": {}, "path": []}]}"#.to_string(),
             "legs[0].path",
         ),
         (
@@ -109,7 +109,7 @@ fn malformed_files_name_the_field() {
             "switches[0].pose",
         ),
         (
-            format!(r#"{{"legs": [], "path_tolerance": -1}}"#),
+            r#"{"legs": [], "path_tolerance": -1}"#.to_string(),
             "path_tolerance",
         ),
         (
@@ -170,4 +170,27 @@ fn a_far_off_waypoint_is_one_gap_checked_at_bounded_points() {
         assert!(report.checked <= 11, "checked {} points", report.checked);
         assert!(report.checked >= 2);
     }
+}
+
+/// `clamber verify` on a malformed route file: exit code 3 (bad input, docs/cli.md) and a
+/// message naming the file and the field, not an internal error.
+#[test]
+fn clamber_verify_reports_a_malformed_route_as_bad_input() {
+    let dir = tempfile::tempdir().unwrap();
+    let route = dir.path().join("bad.route.json");
+    std::fs::write(
+        &route,
+        r#"{"legs": [{"stance": {"hand": "nowhere"}, "path": []}]}"#,
+    )
+    .unwrap();
+    let out = std::process::Command::new(env!("CARGO_BIN_EXE_clamber"))
+        .arg("verify")
+        .arg("scenarios/sevenfold_rail.scenario.toml")
+        .arg(&route)
+        .output()
+        .unwrap();
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert_eq!(out.status.code(), Some(3), "{err}");
+    assert!(err.contains("bad.route.json"), "{err}");
+    assert!(err.contains("legs[0].stance.hand"), "{err}");
 }
