@@ -233,7 +233,10 @@ pub fn verify(scenario_file: &Path, route_file: &Path, json: bool) -> Result<Str
     let s = &f.scenario;
     let text = std::fs::read_to_string(route_file)
         .with_context(|| format!("reading {}", route_file.display()))?;
-    let doc = parse_route(&text, s).with_context(|| route_file.display().to_string())?;
+    let doc = parse_route(&text, s).map_err(|e| {
+        let msg = format!("{}: {e}", route_file.display());
+        anyhow::Error::new(e).context(msg)
+    })?;
     let collision = collision_model(s).context("building the collision model")?;
     let stride = s.limits.stride;
     let mut problems = Vec::new();
