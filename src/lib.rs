@@ -27,6 +27,7 @@ pub mod reach;
 pub mod report;
 pub mod robot_file;
 pub mod route;
+pub mod route_file;
 pub mod sampling;
 pub mod scenario;
 pub mod scenario_file;

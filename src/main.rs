@@ -20,6 +20,7 @@ mod cli;
 
 use clamber::output::OutputError;
 use clamber::robot_file::RobotFileError;
+use clamber::route_file::RouteFileError;
 use clamber::scenario::Goal;
 use clamber::scenario_file::{load_scenario, ScenarioFile, ScenarioFileError};
 
@@ -69,7 +70,10 @@ impl Exit {
     /// The exit code an error calls for, from the typed errors in its chain.
     fn of(e: &anyhow::Error) -> Exit {
         for cause in e.chain() {
-            if cause.is::<ScenarioFileError>() || cause.is::<RobotFileError>() {
+            if cause.is::<ScenarioFileError>()
+                || cause.is::<RobotFileError>()
+                || cause.is::<RouteFileError>()
+            {
                 return Exit::BadInput;
             }
             if cause.is::<OutputError>() {

@@ -196,7 +196,7 @@ pub fn verify_path(
         let a = &path[seg];
         let b = path.get(seg + 1).unwrap_or(a);
         let d = robot.distance(a, b).map_err(ConstraintError::from)?;
-        if d > settings.max_gap {
+        if d.is_nan() || d > settings.max_gap {
             // Reported, and the segment is still checked so other defects on it show too.
             report.defects.push(Defect::Gap {
                 segment: seg,
@@ -204,8 +204,16 @@ pub fn verify_path(
                 max_gap: settings.max_gap,
             });
         }
-        // The last segment includes its end waypoint; the others stop short of it.
-        let steps = ((d / settings.resolution).ceil() as usize).max(1);
+        // The last segment includes its end waypoint; the others stop short of it. A segment
+        // longer than `max_gap` is already a defect: it is checked at no more points than a
+        // segment of length `max_gap` gets, so a far-off waypoint (a route file read back can
+        // say anything) cannot make the check run without bound.
+        let span = if d.is_finite() {
+            d.min(settings.max_gap)
+        } else {
+            settings.max_gap
+        };
+        let steps = ((span / settings.resolution).ceil() as usize).max(1);
         let last = if seg + 1 == segments {
             steps
         } else {

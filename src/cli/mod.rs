@@ -9,7 +9,6 @@ use std::fmt::Write as _;
 use std::path::{Path, PathBuf};
 
 use anyhow::{Context, Result};
-use serde_json::Value;
 
 use clamber::model::{JointKind, Robot};
 use clamber::motion::{plan_motion, Motion, MotionError, MotionSettings};
@@ -18,9 +17,9 @@ use clamber::plot::plot_bytes;
 use clamber::plot_data::{motion_plot_data, route_plot_data};
 use clamber::route::feasibility::check_feasibility;
 use clamber::route::{collision_model, plan_route, Route, RouteError, RouteSettings};
+use clamber::route_file::parse_route;
 use clamber::scenario::{Goal, Scenario};
 use clamber::scenario_file::{load_scenario, ScenarioFile};
-use clamber::scene::Stance;
 use clamber::verify::{verify_path, VerifySettings};
 
 /// Outcomes that have their own exit code.
@@ -295,40 +294,6 @@ pub fn check(file: &Path, json: bool) -> Result<String> {
     }
 }
 
-fn stance_of(s: &Scenario, v: &Value, what: &str) -> Result<Stance> {
-    let map = v
-        .as_object()
-        .with_context(|| format!("{what}: expected an object effector -> hold"))?;
-    let mut st = Stance::new();
-    for (e, h) in map {
-        let name = h
-            .as_str()
-            .with_context(|| format!("{what}: hold of {e} must be a name"))?;
-        let (i, _) = s.scene.hold(name).with_context(|| what.to_string())?;
-        st = st.with(e.clone(), i);
-    }
-    Ok(st)
-}
-
-fn configurations(v: &Value, what: &str, nq: usize) -> Result<Vec<Vec<f64>>> {
-    let rows = v
-        .as_array()
-        .with_context(|| format!("{what}: expected a list of configurations"))?;
-    rows.iter()
-        .enumerate()
-        .map(|(i, r)| {
-            let q: Option<Vec<f64>> = r
-                .as_array()
-                .and_then(|a| a.iter().map(Value::as_f64).collect::<Option<Vec<f64>>>());
-            let q = q.with_context(|| format!("{what}[{i}]: expected a list of numbers"))?;
-            if q.len() != nq {
-                anyhow::bail!("{what}[{i}]: {} values, the robot has {nq}", q.len());
-            }
-            Ok(q)
-        })
-        .collect()
-}
-
 /// `clamber verify`: re-check a route (or motion) file against its scenario, independently of
 /// the planner: every leg densely against its stance (residual, limits, collisions, gaps),
 /// every switch pose against both stances.
@@ -337,82 +302,37 @@ pub fn verify(scenario_file: &Path, route_file: &Path, json: bool) -> Result<Str
     let s = &f.scenario;
     let text = std::fs::read_to_string(route_file)
         .with_context(|| format!("reading {}", route_file.display()))?;
-    let doc: Value = serde_json::from_str(&text)
-        .with_context(|| format!("{}: not JSON", route_file.display()))?;
+    let doc = parse_route(&text, s).map_err(|e| {
+        let msg = format!("{}: {e}", route_file.display());
+        anyhow::Error::new(e).context(msg)
+    })?;
     let collision = collision_model(s).context("building the collision model")?;
-    let nq = s.robot.nq();
     let stride = s.limits.stride;
     let mut problems = Vec::new();
     let mut checked = 0usize;
     let mut worst: f64 = 0.0;
-    // Legs: (label, stance, path, residual tolerance between waypoints).
-    let mut legs = Vec::new();
-    if let Some(ls) = doc.get("legs").and_then(Value::as_array) {
-        let tol = doc
-            .get("path_tolerance")
-            .and_then(Value::as_f64)
-            .unwrap_or(s.limits.tolerance);
-        for (i, l) in ls.iter().enumerate() {
-            let st = stance_of(
-                s,
-                l.get("stance").unwrap_or(&Value::Null),
-                &format!("legs[{i}].stance"),
-            )?;
-            let path = configurations(
-                l.get("path").unwrap_or(&Value::Null),
-                &format!("legs[{i}].path"),
-                nq,
-            )?;
-            legs.push((format!("leg {i}"), st, path, tol));
-        }
-    } else if let Some(p) = doc.get("path") {
-        let tol = doc
-            .pointer("/tolerances/tolerance")
-            .and_then(Value::as_f64)
-            .unwrap_or(s.limits.tolerance);
-        legs.push((
-            "motion".into(),
-            s.start.stance.clone(),
-            configurations(p, "path", nq)?,
-            tol,
-        ));
-    } else {
-        anyhow::bail!(
-            "{}: neither `legs` (a route) nor `path` (a motion)",
-            route_file.display()
-        );
-    }
-    for (label, st, path, tol) in &legs {
-        let stack = st.constraints(&s.robot, &s.scene, &s.constant)?;
-        let settings = VerifySettings::new(stride / 10.0, *tol, stride)?;
-        let report = verify_path(&s.robot, &stack, collision.as_ref(), path, &settings)?;
+    let legs = &doc.pieces;
+    for piece in legs {
+        let stack = piece.stance.constraints(&s.robot, &s.scene, &s.constant)?;
+        let settings = VerifySettings::new(stride / 10.0, piece.tolerance, stride)?;
+        let report = verify_path(&s.robot, &stack, collision.as_ref(), &piece.path, &settings)?;
         checked += report.checked;
         worst = worst.max(report.max_residual);
         for d in report.defects.iter().take(5) {
-            problems.push(format!("{label}: {d}"));
+            problems.push(format!("{}: {d}", piece.label));
         }
     }
-    if let Some(ws) = doc.get("switches").and_then(Value::as_array) {
-        for (i, w) in ws.iter().enumerate() {
-            let pose = configurations(
-                &Value::Array(vec![w.get("pose").cloned().unwrap_or(Value::Null)]),
-                &format!("switches[{i}].pose"),
-                nq,
-            )?;
-            for key in ["from", "to"] {
-                let st = stance_of(
-                    s,
-                    w.get(key).unwrap_or(&Value::Null),
-                    &format!("switches[{i}].{key}"),
-                )?;
-                let stack = st.constraints(&s.robot, &s.scene, &s.constant)?;
-                let settings = VerifySettings::new(stride / 10.0, s.limits.tolerance, stride)?;
-                let report = verify_path(&s.robot, &stack, collision.as_ref(), &pose, &settings)?;
-                checked += report.checked;
-                worst = worst.max(report.max_residual);
-                for d in &report.defects {
-                    problems.push(format!("switch {i} ({key} stance): {d}"));
-                }
+    for w in &doc.switches {
+        let i = w.index;
+        let pose = std::slice::from_ref(&w.pose);
+        for (key, st) in [("from", &w.from), ("to", &w.to)] {
+            let stack = st.constraints(&s.robot, &s.scene, &s.constant)?;
+            let settings = VerifySettings::new(stride / 10.0, s.limits.tolerance, stride)?;
+            let report = verify_path(&s.robot, &stack, collision.as_ref(), pose, &settings)?;
+            checked += report.checked;
+            worst = worst.max(report.max_residual);
+            for d in &report.defects {
+                problems.push(format!("switch {i} ({key} stance): {d}"));
             }
         }
     }
