@@ -160,6 +160,29 @@ impl ProjectionBuffer {
     }
 }
 
+impl ProjectionBuffer {
+    /// Hold the one-coordinate joint with tangent index `v_index` at `value` in projections
+    /// that use this buffer (its limits become `[value, value]`; the robot's are unchanged).
+    /// Returns false, changing nothing, for a coordinate that is not a revolute or prismatic
+    /// joint's or a value outside the joint's limits.
+    pub fn pin(&mut self, v_index: usize, value: f64) -> bool {
+        let Some(Some((qi, lo, hi))) = self.bounds.get(v_index).copied() else {
+            return false;
+        };
+        if !(lo..=hi).contains(&value) {
+            return false;
+        }
+        self.bounds[v_index] = Some((qi, value, value));
+        if let Some(coords) = &mut self.one_dof {
+            for c in coords.iter_mut().filter(|c| c.1 == v_index) {
+                c.2 = value;
+                c.3 = value;
+            }
+        }
+        true
+    }
+}
+
 const LAMBDA_START: f64 = 1e-6;
 const LAMBDA_MIN: f64 = 1e-12;
 const LAMBDA_MAX: f64 = 1e8;

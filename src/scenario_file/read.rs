@@ -395,7 +395,7 @@ pub(super) fn read(text: &str, path: &Path) -> Res<ScenarioFile> {
 
     let limits = limits(&c, raw.limits.as_ref().map(|l| &l.get_ref().0))?;
     let (start, settled) = start(&c, raw.start.as_ref(), &robot, &scene, &limits)?;
-    let goal = goal(&c, raw.goal.as_ref(), &robot, &scene, &start.q)?;
+    let goal = goal(&c, raw.goal.as_ref(), &robot, &scene, &start, &limits)?;
     let outputs = outputs(&c, raw.outputs.as_ref().map(|o| &o.get_ref().0))?;
 
     Ok(ScenarioFile {
@@ -917,12 +917,68 @@ fn start(
     Ok((Start { q, stance }, settle))
 }
 
+/// A configuration goal lies in the start's stance: project it onto that stance's manifold
+/// with the joints the file names held at their values (the others, passive mechanism joints
+/// included, move). A goal that already satisfies the stance is left as it is.
+fn settle_goal(
+    c: &Checker,
+    named: &Spanned<Named>,
+    robot: &Robot,
+    scene: &Scene,
+    start: &Start,
+    limits: &ScenarioLimits,
+    q: &mut [f64],
+) -> Res<()> {
+    if start.stance.grips.is_empty() {
+        return Ok(());
+    }
+    let field_error = |e: String| c.field(&named.span(), "q", e);
+    let stack = start
+        .stance
+        .constraints(robot, scene, &[])
+        .map_err(|e| field_error(e.to_string()))?;
+    let settings = ProjectionSettings {
+        tolerance: (limits.tolerance * 1e-3).max(1e-13),
+        max_iterations: SETTLE_ITERATIONS,
+        ..ProjectionSettings::default()
+    };
+    let mut buf = ProjectionBuffer::new(robot, &stack);
+    let mut held = Vec::new();
+    for (key, _) in &named.get_ref().0 {
+        if let Some(j) = robot.joint_id(key.get_ref()).map(|j| &robot.joints()[j]) {
+            if let Some(&v) = q.get(j.q_index) {
+                if buf.pin(j.v_index, v) {
+                    held.push(key.get_ref().as_str());
+                }
+            }
+        }
+    }
+    let report =
+        project(robot, &stack, &settings, q, &mut buf).map_err(|e| field_error(e.to_string()))?;
+    if !report.converged() {
+        return Err(field_error(format!(
+            "the goal configuration cannot hold the start's stance {} with {} at the values              given: residual {:.3e} after {} steps (tolerance {:e}); expected joint values              the stance allows",
+            start.stance.describe(scene),
+            if held.is_empty() {
+                "the joints".to_string()
+            } else {
+                backticked(&held)
+            },
+            report.residual,
+            report.iterations,
+            limits.tolerance
+        )));
+    }
+    Ok(())
+}
+
 fn goal(
     c: &Checker,
     raw: Option<&Spanned<One<GoalRaw>>>,
     robot: &Robot,
     scene: &Scene,
-    start_q: &[f64],
+    start: &Start,
+    limits: &ScenarioLimits,
 ) -> Res<Goal> {
     let raw = raw.ok_or_else(|| {
         c.field(
@@ -965,8 +1021,9 @@ fn goal(
         }
     }
     if let Some(named) = &g.q {
-        let mut q = start_q.to_vec();
+        let mut q = start.q.clone();
         joint_values(c, named, robot, &mut q)?;
+        settle_goal(c, named, robot, scene, start, limits, &mut q)?;
         return Ok(Goal::Configuration(q));
     }
     if let Some(named) = &g.stance {
