@@ -2,6 +2,8 @@
 //! library does the work). Errors that decide the exit code are typed here ([`CommandError`])
 //! so `main` can map them.
 
+pub mod view;
+
 use std::fmt::Write as _;
 use std::path::{Path, PathBuf};
 
