@@ -8,7 +8,7 @@ use thiserror::Error;
 #[derive(Debug, Error)]
 #[non_exhaustive]
 pub enum ViewError {
-    #[error("{path}: cannot read: {source}")]
+    #[error("{path}: cannot read")]
     Io {
         path: PathBuf,
         source: std::io::Error,
