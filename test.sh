@@ -6,6 +6,15 @@
 set -euo pipefail
 cd "$(dirname "$0")"
 
+# The viewer (viewer/, a workspace member) renders pictures in its tests on the Vulkan software
+# driver when there is no GPU.
+if ! ls /usr/share/vulkan/icd.d/*.json >/dev/null 2>&1; then
+    echo "test.sh: no Vulkan driver found (/usr/share/vulkan/icd.d is empty): the viewer's" >&2
+    echo "  rendering tests will fail. Install the software driver:" >&2
+    echo "  apt-get install mesa-vulkan-drivers libvulkan1   (and xvfb for the window test)" >&2
+    exit 1
+fi
+
 echo "== cargo test"
 cargo test --workspace --all-targets
 cargo test --workspace --doc

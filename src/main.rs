@@ -41,12 +41,14 @@ enum Exit {
     Verification = 5,
     /// An output file could not be written (nothing partial is left behind).
     Output = 6,
+    /// `show`/`render`: the viewer executable `clamber-view` is not installed.
+    NoViewer = 7,
     /// Interrupted (SIGINT); see `cli::interrupt`. The handler exits with this code itself.
     Interrupted = 130,
 }
 
 impl Exit {
-    const ALL: [(Exit, &'static str); 8] = [
+    const ALL: [(Exit, &'static str); 9] = [
         (Exit::Success, "success"),
         (
             Exit::Internal,
@@ -57,6 +59,10 @@ impl Exit {
         (Exit::NoRoute, "no route found within the limits"),
         (Exit::Verification, "the verifier rejected the route"),
         (Exit::Output, "an output file could not be written"),
+        (
+            Exit::NoViewer,
+            "show/render: the viewer clamber-view is not installed (other codes: the viewer's own)",
+        ),
         (
             Exit::Interrupted,
             "interrupted (Ctrl-C): no output file of the run, or all of them, is written",
@@ -78,6 +84,9 @@ impl Exit {
             }
             if cause.is::<OutputError>() {
                 return Exit::Output;
+            }
+            if let Some(cli::view::ViewerError::Missing { .. }) = cause.downcast_ref() {
+                return Exit::NoViewer;
             }
             match cause.downcast_ref::<cli::CommandError>() {
                 Some(cli::CommandError::NoRoute(_)) => return Exit::NoRoute,
@@ -176,6 +185,22 @@ enum Command {
         /// Write the report into this directory instead of the suite's `output`.
         #[arg(long)]
         out: Option<PathBuf>,
+    },
+    /// Replay a route in a 3D window (runs the separate `clamber-view` executable; its
+    /// options: `clamber show --help`).
+    #[command(disable_help_flag = true)]
+    Show {
+        /// SCENARIO ROUTE [--screenshot PNG --after SECONDS] [view options]
+        #[arg(trailing_var_arg = true, allow_hyphen_values = true)]
+        args: Vec<std::ffi::OsString>,
+    },
+    /// Render a route at a time (or a strip of key frames) to PNG with no window (runs
+    /// `clamber-view`; its options: `clamber render --help`).
+    #[command(disable_help_flag = true)]
+    Render {
+        /// SCENARIO ROUTE [--time T | --strip N] -o OUT.png [view options]
+        #[arg(trailing_var_arg = true, allow_hyphen_values = true)]
+        args: Vec<std::ffi::OsString>,
     },
     /// Print a shell completion script for clamber.
     Completions {
@@ -575,6 +600,22 @@ fn main() -> ExitCode {
     if let Err(e) = cli::interrupt::install() {
         eprintln!("warning: Ctrl-C will not be handled: {e}");
     }
+    if let Command::Show { args } | Command::Render { args } = &cli.command {
+        let sub = if matches!(cli.command, Command::Show { .. }) {
+            "show"
+        } else {
+            "render"
+        };
+        return match cli::view::forward(sub, args) {
+            Ok(code) => ExitCode::from(code),
+            Err(e) => {
+                let e = anyhow::Error::from(e);
+                let exit = Exit::of(&e);
+                report_error(&e, style, exit);
+                ExitCode::from(exit.code())
+            }
+        };
+    }
     let result = match &cli.command {
         Command::Robot { file } => robot(file, style),
         Command::Scenario { file } => scenario(file, style),
@@ -607,6 +648,8 @@ fn main() -> ExitCode {
         Command::Verify { scenario, route } => {
             cli::verify(scenario, route, style.json).map(|t| print_unless_quiet(&t, style))
         }
+        // Forwarded to the viewer above.
+        Command::Show { .. } | Command::Render { .. } => Ok(()),
     };
     match result {
         Ok(()) => ExitCode::from(Exit::Success.code()),

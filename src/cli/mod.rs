@@ -4,6 +4,7 @@
 
 pub mod bench;
 pub mod interrupt;
+pub mod view;
 
 use std::fmt::Write as _;
 use std::path::{Path, PathBuf};
@@ -258,7 +259,7 @@ pub fn plan(
     let o = &f.outputs;
     let route_path = route_out.or_else(|| o.route.clone());
     let mut files: Vec<(PathBuf, Vec<u8>)> = [
-        (route_path, doc.as_bytes()),
+        (route_path.clone(), doc.as_bytes()),
         (o.trajectory.clone(), csv.as_bytes()),
         (o.summary.clone(), text.as_bytes()),
     ]
@@ -272,14 +273,45 @@ pub fn plan(
         }
     }
     let written = write_outputs(files)?;
+    // The picture is drawn by the separate viewer from the route file just written; without
+    // the viewer, or when it fails, the plan still stands and the note says why.
+    let picture_note = match (&o.picture, &route_path) {
+        (Some(picture), Some(route)) => Some(draw_picture(file, route, picture)),
+        (Some(_), None) => Some("picture not drawn: it needs a route output".to_string()),
+        _ => None,
+    };
     if json {
+        if let Some(note) = picture_note {
+            eprintln!("{note}");
+        }
         return Ok(doc);
     }
     let mut out = text;
     for p in written {
         let _ = writeln!(out, "wrote {}", p.display());
     }
+    if let Some(note) = picture_note {
+        let _ = writeln!(out, "{note}");
+    }
     Ok(out)
+}
+
+/// Render a strip of four key frames of `route` to `picture` with `clamber render`; the line
+/// to print.
+fn draw_picture(scenario: &Path, route: &Path, picture: &Path) -> String {
+    let args: Vec<std::ffi::OsString> = vec![
+        scenario.into(),
+        route.into(),
+        "--strip".into(),
+        "4".into(),
+        "-o".into(),
+        picture.into(),
+    ];
+    match view::forward("render", &args) {
+        Ok(0) => format!("wrote {}", picture.display()),
+        Ok(code) => format!("picture not drawn: clamber-view exited with code {code}"),
+        Err(e) => format!("picture not drawn: {e}"),
+    }
 }
 
 /// `clamber check`: the switch feasibility table of a scenario's scene.
