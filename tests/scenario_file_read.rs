@@ -104,7 +104,10 @@ fn rail_scenario_reads_as_written() {
         f.outputs.route,
         Some(repo("scenarios/out/sevenfold_rail.route.json"))
     );
-    assert_eq!(f.outputs.picture, None);
+    assert_eq!(
+        f.outputs.picture,
+        Some(repo("scenarios/out/sevenfold_rail.png"))
+    );
 }
 
 #[test]
