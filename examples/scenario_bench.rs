@@ -14,6 +14,9 @@ use clamber::demo::{bar_slide, carry, door, lever};
 use clamber::motion::{plan_motion, MotionSettings, PlannerChoice};
 use clamber::scenario::Scenario;
 
+/// A demo scenario's builder.
+type Builder = fn() -> Result<Scenario, clamber::demo::door::DemoError>;
+
 fn percentile(sorted: &[Duration], p: f64) -> Duration {
     if sorted.is_empty() {
         return Duration::ZERO;
@@ -103,10 +106,7 @@ fn main() -> anyhow::Result<()> {
         }
         i += 1;
     }
-    let builders: Vec<(
-        &str,
-        fn() -> Result<Scenario, clamber::demo::door::DemoError>,
-    )> = vec![
+    let builders: Vec<(&str, Builder)> = vec![
         ("door", door::scenario),
         ("lever", lever::scenario),
         ("bar_slide", bar_slide::scenario),
