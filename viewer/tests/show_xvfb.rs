@@ -28,6 +28,30 @@ fn show_opens_a_window_and_takes_a_screenshot() {
         );
         return;
     }
+    screenshot_through(env!("CARGO_BIN_EXE_clamber-view").as_ref());
+}
+
+/// The same through the core binary: `clamber show` finds `clamber-view` beside itself (both
+/// are built into the same target directory by `cargo test --workspace`) and forwards.
+#[test]
+fn clamber_show_forwards_to_the_viewer() {
+    let viewer = std::path::Path::new(env!("CARGO_BIN_EXE_clamber-view"));
+    let core = viewer.with_file_name(format!("clamber{}", std::env::consts::EXE_SUFFIX));
+    if !have("xvfb-run") || !core.is_file() {
+        eprintln!(
+            "\n!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!\n\
+             SKIPPED clamber_show_forwards_to_the_viewer: xvfb-run missing or the core\n\
+             binary not built beside the viewer ({}); run `cargo test --workspace`.\n\
+             !!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!!\n",
+            core.display()
+        );
+        return;
+    }
+    screenshot_through(&core);
+}
+
+/// Run `PROGRAM show DEMO ROUTE --screenshot ...` under Xvfb and check the screenshot.
+fn screenshot_through(program: &std::path::Path) {
     let (_, json) = common::demo_route();
     let dir = tempfile::tempdir().unwrap();
     let route = dir.path().join("demo.route.json");
@@ -36,7 +60,7 @@ fn show_opens_a_window_and_takes_a_screenshot() {
     let (w, h) = (640u32, 480u32);
     let out = Command::new("xvfb-run")
         .args(["-a", "-s", "-screen 0 1024x768x24"])
-        .arg(env!("CARGO_BIN_EXE_clamber-view"))
+        .arg(program)
         .arg("show")
         .arg(common::demo_path())
         .arg(&route)
