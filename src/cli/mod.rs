@@ -126,9 +126,14 @@ fn summary(s: &Scenario, planned: &Planned) -> String {
             );
             let _ = writeln!(
                 out,
-                "max residual along legs {:.2e} (path tolerance {:e}), min clearance {:.3} m",
+                "max residual along legs {:.2e} (path tolerance {:e}), min clearance at \
+                 waypoints {:.3} m (switch poses keep at least {:.3} m)",
                 r.legs.iter().map(|l| l.max_residual).fold(0.0, f64::max),
                 r.path_tolerance,
+                r.legs
+                    .iter()
+                    .map(|l| l.min_clearance)
+                    .fold(f64::INFINITY, f64::min),
                 r.min_clearance
             );
             for w in &r.switches {
