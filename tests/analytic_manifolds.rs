@@ -5,6 +5,8 @@
 
 mod common;
 
+use common::Sphere;
+
 use clamber::constraint::{
     Constraint, ConstraintError, ConstraintStack, EvalContext, FrameRef, JacobianRows,
 };
@@ -20,12 +22,6 @@ const BOX: f64 = 2.0;
 
 fn point_frame(robot: &Robot) -> FrameRef {
     FrameRef::on_link(robot, "point", Pose::identity()).unwrap()
-}
-
-/// Sphere of radius 1 about the origin, distance form: residual |p| - 1, gradient p / |p|.
-#[derive(Debug)]
-struct Sphere {
-    point: FrameRef,
 }
 
 /// Torus about the z axis (major radius `big`, minor radius `small`), distance form:
@@ -50,30 +46,6 @@ fn write_row(
         jac.row_mut(0).copy_from(&(grad.transpose() * lin));
     }
     Ok(())
-}
-
-impl Constraint for Sphere {
-    fn rows(&self) -> usize {
-        1
-    }
-    fn codimension(&self) -> usize {
-        1
-    }
-    fn describe(&self) -> String {
-        "unit sphere".into()
-    }
-    fn evaluate(
-        &self,
-        ctx: &mut EvalContext<'_>,
-        residual: &mut [f64],
-        jacobian: Option<JacobianRows<'_>>,
-    ) -> Result<(), ConstraintError> {
-        let p = self.point.pose(ctx.poses).translation.vector;
-        let n = p.norm();
-        residual[0] = n - 1.0;
-        let grad = if n > 0.0 { p / n } else { Vector3::zeros() };
-        write_row(ctx, &self.point, grad, jacobian)
-    }
 }
 
 impl Constraint for Torus {

@@ -10,14 +10,15 @@
 //! The segment is sqrt(2) long; at resolution 0.5 the verifier's points are f = 0, 1/3, 2/3,
 //! 1 (ceil(2.83) = 3 steps), at times 0, 1, 2, 3 s for waypoint times 0 and 3 s.
 
+mod common;
+
 use clamber::collision::{CollisionModel, Obstacle};
-use clamber::constraint::{
-    Constraint, ConstraintError, ConstraintStack, EvalContext, FrameRef, JacobianRows,
-};
+use clamber::constraint::{ConstraintStack, FrameRef};
 use clamber::math::{pose_from_xyz_rpy, Pose};
 use clamber::model::{Geometry, JointSpec, JointType, Limits, LinkSpec, Robot, RobotSpec, Shape};
 use clamber::plot_data::{along_path, joint_series};
 use clamber::timing::time_polyline;
+use common::Sphere;
 use nalgebra::Vector3;
 
 fn point_robot() -> Robot {
@@ -75,40 +76,6 @@ fn point_robot() -> Robot {
     }
     .build()
     .unwrap()
-}
-
-/// |p| = 1 in distance form.
-#[derive(Debug)]
-struct Sphere {
-    point: FrameRef,
-}
-
-impl Constraint for Sphere {
-    fn rows(&self) -> usize {
-        1
-    }
-    fn codimension(&self) -> usize {
-        1
-    }
-    fn describe(&self) -> String {
-        "unit sphere".into()
-    }
-    fn evaluate(
-        &self,
-        ctx: &mut EvalContext<'_>,
-        residual: &mut [f64],
-        jacobian: Option<JacobianRows<'_>>,
-    ) -> Result<(), ConstraintError> {
-        let p = self.point.pose(ctx.poses).translation.vector;
-        residual[0] = p.norm() - 1.0;
-        if let Some(mut jac) = jacobian {
-            ctx.frame_jacobian(&self.point)?;
-            let grad = p / p.norm();
-            let lin = ctx.scratch.rows(0, 3);
-            jac.row_mut(0).copy_from(&(grad.transpose() * lin));
-        }
-        Ok(())
-    }
 }
 
 fn setup() -> (Robot, ConstraintStack, CollisionModel) {

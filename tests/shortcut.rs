@@ -6,9 +6,9 @@
 
 mod common;
 
-use clamber::constraint::{
-    Constraint, ConstraintError, ConstraintStack, EvalContext, FrameRef, JacobianRows,
-};
+use common::Sphere;
+
+use clamber::constraint::{ConstraintStack, FrameRef};
 use clamber::cspace::ConstrainedSpace;
 use clamber::math::Pose;
 use clamber::model::Robot;
@@ -16,43 +16,6 @@ use clamber::projection::ProjectionBuffer;
 use clamber::shortcut::{path_length, shorten, ShortenSettings};
 use clamber::verify::{verify_path, VerifySettings};
 use clamber::walk::{walk, WalkSettings};
-use nalgebra::Vector3;
-
-/// Sphere of radius 1 about the origin, distance form: residual |p| - 1, gradient p / |p|
-/// (as in tests/analytic_manifolds.rs).
-#[derive(Debug)]
-struct Sphere {
-    point: FrameRef,
-}
-
-impl Constraint for Sphere {
-    fn rows(&self) -> usize {
-        1
-    }
-    fn codimension(&self) -> usize {
-        1
-    }
-    fn describe(&self) -> String {
-        "unit sphere".into()
-    }
-    fn evaluate(
-        &self,
-        ctx: &mut EvalContext<'_>,
-        residual: &mut [f64],
-        jacobian: Option<JacobianRows<'_>>,
-    ) -> Result<(), ConstraintError> {
-        let p = self.point.pose(ctx.poses).translation.vector;
-        let n = p.norm();
-        residual[0] = n - 1.0;
-        if let Some(mut jac) = jacobian {
-            let grad = if n > 0.0 { p / n } else { Vector3::zeros() };
-            ctx.frame_jacobian(&self.point)?;
-            let lin = ctx.scratch.rows(0, 3);
-            jac.row_mut(0).copy_from(&(grad.transpose() * lin));
-        }
-        Ok(())
-    }
-}
 
 /// Off the unit sphere by its implicit equation x^2 + y^2 + z^2 = 1, as a distance.
 fn sphere_error(p: &[f64]) -> f64 {

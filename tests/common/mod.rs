@@ -363,3 +363,39 @@ pub fn point_robot(half: f64) -> Robot {
     .build()
     .unwrap()
 }
+
+/// Sphere of radius 1 about the origin, distance form: residual |p| - 1, gradient p / |p|
+/// (zero at the origin), for the frame `point`. The analytic manifold of several tests.
+#[derive(Debug)]
+pub struct Sphere {
+    pub point: clamber::constraint::FrameRef,
+}
+
+impl clamber::constraint::Constraint for Sphere {
+    fn rows(&self) -> usize {
+        1
+    }
+    fn codimension(&self) -> usize {
+        1
+    }
+    fn describe(&self) -> String {
+        "unit sphere".into()
+    }
+    fn evaluate(
+        &self,
+        ctx: &mut clamber::constraint::EvalContext<'_>,
+        residual: &mut [f64],
+        jacobian: Option<clamber::constraint::JacobianRows<'_>>,
+    ) -> Result<(), clamber::constraint::ConstraintError> {
+        let p = self.point.pose(ctx.poses).translation.vector;
+        let n = p.norm();
+        residual[0] = n - 1.0;
+        if let Some(mut jac) = jacobian {
+            let grad = if n > 0.0 { p / n } else { Vector3::zeros() };
+            ctx.frame_jacobian(&self.point)?;
+            let lin = ctx.scratch.rows(0, 3);
+            jac.row_mut(0).copy_from(&(grad.transpose() * lin));
+        }
+        Ok(())
+    }
+}
