@@ -3,6 +3,7 @@
 //!     cargo run --release --example scenario_bench -- [--seeds 100] [--only door]
 //!         [--plan-fraction F] [--max-step D] [--planner rrt|prm|both]
 //!         [--sampling-margin M|none] [--shortcuts N] [--segment-share S]
+//!         [--plan-margin M|none]
 //!
 //! For each scenario and seed 1..=N: `plan_motion` with default settings; prints successes,
 //! median and 95th percentile of the planning stage and of the whole pipeline (plan, densify,
@@ -40,6 +41,7 @@ fn main() -> anyhow::Result<()> {
     let mut planners = vec![PlannerChoice::RrtConnect, PlannerChoice::LazyPrm];
     let mut margin: Option<Option<f64>> = None;
     let mut shortcuts: Option<usize> = None;
+    let mut plan_margin: Option<Option<f64>> = None;
     let mut i = 1;
     while i < args.len() {
         match args[i].as_str() {
@@ -90,6 +92,13 @@ fn main() -> anyhow::Result<()> {
                 margin = Some(if v == "none" { None } else { Some(v.parse()?) });
                 i += 1;
             }
+            "--plan-margin" => {
+                let v = args
+                    .get(i + 1)
+                    .ok_or_else(|| anyhow::anyhow!("--plan-margin needs a number or none"))?;
+                plan_margin = Some(if v == "none" { None } else { Some(v.parse()?) });
+                i += 1;
+            }
             "--shortcuts" => {
                 shortcuts = Some(
                     args.get(i + 1)
@@ -124,6 +133,9 @@ fn main() -> anyhow::Result<()> {
     }
     if let Some(m) = margin {
         settings.sampling_margin = m;
+    }
+    if let Some(m) = plan_margin {
+        settings.plan_margin = m;
     }
     if let Some(n) = shortcuts {
         settings.shortcut_attempts = n;

@@ -13,7 +13,7 @@ use crate::math::Pose;
 use crate::model::Robot;
 use crate::projection::{project, ProjectionBuffer};
 use crate::settings::{positive, SettingsError};
-use crate::walk::{walk, WalkSettings};
+use crate::walk::{walk_checked, WalkSettings};
 
 /// A C-space query failed for a reason other than an invalid configuration.
 #[derive(Debug, Error, Clone, PartialEq)]
@@ -179,6 +179,39 @@ impl SegmentSampling {
     }
 }
 
+/// A clearance margin for coarse collision checks along motions (see
+/// [`FreeSpace::with_clearance_margin`]): a stretch of a motion between two checked points is
+/// accepted unseen only when both points are at least `margin` metres from every obstacle;
+/// otherwise its inside is checked at `fine_resolution`.
+///
+/// Written by hand: this is the planner's own adaptive spacing, which no library offers for
+/// a C-space of our shape.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct ClearanceMargin {
+    pub margin: f64,
+    pub fine_resolution: f64,
+}
+
+impl ClearanceMargin {
+    pub fn new(margin: f64, fine_resolution: f64) -> Result<Self, CSpaceError> {
+        Ok(ClearanceMargin {
+            margin: positive("clearance margin", margin)?,
+            fine_resolution: positive("fine resolution", fine_resolution)?,
+        })
+    }
+}
+
+/// How far a configuration is from trouble, as the coarse motion check sees it.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+enum Room {
+    /// Outside the limits or in collision.
+    Blocked,
+    /// Collision-free but within the clearance margin of something.
+    Close,
+    /// Collision-free with at least the clearance margin to spare.
+    Clear,
+}
+
 /// Collision and limit checks shared by both spaces.
 struct Checker<'a> {
     robot: &'a Robot,
@@ -186,6 +219,10 @@ struct Checker<'a> {
     poses: Vec<Pose>,
     scratch: CollisionScratch,
     stats: CSpaceStats,
+    margin: Option<ClearanceMargin>,
+    /// The configuration last judged by [`Checker::room`] and its verdict (consecutive motion
+    /// segments share an end).
+    last_room: Option<(Vec<f64>, Room)>,
 }
 
 impl<'a> Checker<'a> {
@@ -196,6 +233,8 @@ impl<'a> Checker<'a> {
             poses: vec![Pose::identity(); robot.links().len()],
             scratch: CollisionScratch::new(),
             stats: CSpaceStats::default(),
+            margin: None,
+            last_room: None,
         }
     }
 
@@ -233,18 +272,97 @@ impl<'a> Checker<'a> {
         Ok((target, d))
     }
 
+    /// [`Room`] of `q` under the clearance margin (`Clear` when there is no margin and `q` is
+    /// free).
+    fn room(&mut self, q: &[f64]) -> Result<Room, CSpaceError> {
+        if let Some((last, room)) = &self.last_room {
+            if last.as_slice() == q {
+                return Ok(*room);
+            }
+        }
+        let room = self.judge(q)?;
+        match &mut self.last_room {
+            Some((last, r)) if last.len() == q.len() => {
+                last.copy_from_slice(q);
+                *r = room;
+            }
+            slot => *slot = Some((q.to_vec(), room)),
+        }
+        Ok(room)
+    }
+
+    fn judge(&mut self, q: &[f64]) -> Result<Room, CSpaceError> {
+        let (Some(margin), Some(model)) = (self.margin, self.collision) else {
+            return Ok(if self.free(q)? {
+                Room::Clear
+            } else {
+                Room::Blocked
+            });
+        };
+        if !self.robot.within_limits(q, 0.0) {
+            return Ok(Room::Blocked);
+        }
+        forward_kinematics(self.robot, q, &mut self.poses).map_err(ConstraintError::from)?;
+        self.stats.collision_checks += 1;
+        if !model.in_collision_with_margin(&self.poses, margin.margin, &mut self.scratch)? {
+            return Ok(Room::Clear);
+        }
+        // The poses are current: ask again without the margin.
+        self.stats.collision_checks += 1;
+        Ok(if model.in_collision(&self.poses, &mut self.scratch)? {
+            Room::Blocked
+        } else {
+            Room::Close
+        })
+    }
+
     /// Every point of the straight segment a -> b at spacing <= `resolution` (excluding a) free.
+    /// With a clearance margin, a stretch between two checked points is also checked inside
+    /// at the margin's fine resolution unless both its ends are clear by the margin (`a` is
+    /// assumed free; its room is judged when needed).
     fn segment_free(&mut self, a: &[f64], b: &[f64], resolution: f64) -> Result<bool, CSpaceError> {
         let d = self.robot.distance(a, b).map_err(ConstraintError::from)?;
         let steps = ((d / resolution).ceil() as usize).max(1);
         let mut q = vec![0.0; self.robot.nq()];
+        let Some(margin) = self.margin else {
+            for k in 1..=steps {
+                self.robot
+                    .interpolate(a, b, k as f64 / steps as f64, &mut q)
+                    .map_err(ConstraintError::from)?;
+                if !self.free(&q)? {
+                    return Ok(false);
+                }
+            }
+            return Ok(true);
+        };
+        let mut previous_clear = self.room(a)? == Room::Clear;
+        // Fine points inside each stretch (ends excluded).
+        let fine = ((d / steps as f64 / margin.fine_resolution).ceil() as usize).max(1);
         for k in 1..=steps {
-            self.robot
-                .interpolate(a, b, k as f64 / steps as f64, &mut q)
-                .map_err(ConstraintError::from)?;
-            if !self.free(&q)? {
+            if k == steps {
+                // `b` itself, so the next segment (which starts at `b`) finds its room cached.
+                q.copy_from_slice(b);
+            } else {
+                self.robot
+                    .interpolate(a, b, k as f64 / steps as f64, &mut q)
+                    .map_err(ConstraintError::from)?;
+            }
+            let room = self.room(&q)?;
+            if room == Room::Blocked {
                 return Ok(false);
             }
+            if !(previous_clear && room == Room::Clear) {
+                for j in 1..fine {
+                    let t = ((k - 1) as f64 + j as f64 / fine as f64) / steps as f64;
+                    self.robot
+                        .interpolate(a, b, t, &mut q)
+                        .map_err(ConstraintError::from)?;
+                    if !self.free(&q)? {
+                        return Ok(false);
+                    }
+                }
+            }
+            previous_clear = room == Room::Clear;
         }
         Ok(true)
     }
@@ -272,6 +390,12 @@ impl<'a> FreeSpace<'a> {
     /// Draw samples inside `sampling_box` (see [`SamplingBox`]).
     pub fn with_sampling_box(mut self, sampling_box: SamplingBox) -> Self {
         self.sampling_box = Some(sampling_box);
+        self
+    }
+    /// Check motions coarsely where the robot is clear of obstacles by `margin` and finely
+    /// elsewhere (see [`ClearanceMargin`]).
+    pub fn with_clearance_margin(mut self, margin: ClearanceMargin) -> Self {
+        self.checker.margin = Some(margin);
         self
     }
 }
@@ -365,6 +489,12 @@ impl<'a> ConstrainedSpace<'a> {
         self.segment_sampling = Some(sampling);
         self
     }
+    /// Check motions coarsely where the robot is clear of obstacles by `margin` and finely
+    /// elsewhere (see [`ClearanceMargin`]).
+    pub fn with_clearance_margin(mut self, margin: ClearanceMargin) -> Self {
+        self.checker.margin = Some(margin);
+        self
+    }
     pub fn stack(&self) -> &ConstraintStack {
         self.stack
     }
@@ -419,28 +549,21 @@ impl ConfigSpace for ConstrainedSpace<'_> {
     ) -> Result<Extension, CSpaceError> {
         let robot = self.checker.robot;
         let (target, d) = self.checker.clip(from, to, max_distance)?;
-        let w = walk(
+        let (checker, resolution) = (&mut self.checker, self.resolution);
+        // Each walk point is taken only if the straight segment to it is free, so a blocked
+        // motion costs no projections past its first blocked step.
+        let w = walk_checked(
             robot,
             self.stack,
             from,
             &target,
             &self.walk,
             &mut self.buffer,
+            |prev, q| checker.segment_free(prev, q, resolution),
         )?;
         self.checker.stats.projections += w.projections;
-        // Keep the walk up to its first invalid point.
-        let mut path = Vec::with_capacity(w.path.len());
-        let mut prev = from.to_vec();
-        for q in w.path.into_iter().skip(1) {
-            if !self.checker.segment_free(&prev, &q, self.resolution)? {
-                return Ok(Extension {
-                    path,
-                    reached: false,
-                });
-            }
-            prev.clone_from(&q);
-            path.push(q);
-        }
+        let mut path = w.path;
+        path.remove(0);
         let reached = d <= max_distance && path.last().is_some_and(|q| self.distance(q, to) == 0.0);
         Ok(Extension { path, reached })
     }

@@ -89,6 +89,8 @@ pub enum WalkStop {
     NoProgress { distance: f64 },
     /// `max_steps` reached.
     StepLimit,
+    /// The caller's check refused the next point ([`walk_checked`]).
+    Refused,
 }
 
 /// A walk: the points visited (starting with `qa`) and why it ended. Each consecutive pair is
@@ -121,9 +123,27 @@ pub fn walk(
     settings: &WalkSettings,
     buf: &mut ProjectionBuffer,
 ) -> Result<Walk, ConstraintError> {
-    settings.validate()?;
-    robot.check_configuration(qa)?;
-    robot.check_configuration(qb)?;
+    walk_checked(robot, stack, qa, qb, settings, buf, |_, _| {
+        Ok::<_, ConstraintError>(true)
+    })
+}
+
+/// [`walk`], asking `keep(previous, next)` about each new point before it is taken: when it
+/// answers false the walk ends there with [`WalkStop::Refused`] (the refused point is not in
+/// the path), so a caller that checks collisions spends no projections beyond the first
+/// blocked step.
+pub fn walk_checked<E: From<ConstraintError>>(
+    robot: &Robot,
+    stack: &ConstraintStack,
+    qa: &[f64],
+    qb: &[f64],
+    settings: &WalkSettings,
+    buf: &mut ProjectionBuffer,
+    mut keep: impl FnMut(&[f64], &[f64]) -> Result<bool, E>,
+) -> Result<Walk, E> {
+    settings.validate().map_err(ConstraintError::from)?;
+    robot.check_configuration(qa).map_err(ConstraintError::from)?;
+    robot.check_configuration(qb).map_err(ConstraintError::from)?;
     let tol = settings.projection.tolerance;
     let mut projections = 0;
     let start_res = stack.evaluate(robot, qa, &mut buf.stack, false)?;
@@ -149,7 +169,7 @@ pub fn walk(
     let mut q = qa.to_vec();
     let mut step_q = vec![0.0; robot.nq()];
     let mut unprojected = vec![0.0; robot.nq()];
-    let mut dist = robot.distance(&q, qb)?;
+    let mut dist = robot.distance(&q, qb).map_err(ConstraintError::from)?;
     for _ in 0..settings.max_steps {
         if dist == 0.0 {
             return done(path, WalkStop::Reached, projections);
@@ -159,16 +179,19 @@ pub fn walk(
             && stack.evaluate(robot, qb, &mut buf.stack, false)? <= tol
             && robot.within_limits(qb, 0.0)
         {
+            if !keep(&q, qb)? {
+                return done(path, WalkStop::Refused, projections);
+            }
             path.push(qb.to_vec());
             return done(path, WalkStop::Reached, projections);
         }
-        robot.difference(&q, qb, &mut dir)?;
+        robot.difference(&q, qb, &mut dir).map_err(ConstraintError::from)?;
         let mut frac = (settings.stride / dist).min(1.0);
         let mut halvings = 0;
         let new_dist = loop {
             let step_len = dist * frac;
             scaled.iter_mut().zip(&dir).for_each(|(s, d)| *s = d * frac);
-            robot.integrate(&q, &scaled, &mut step_q)?;
+            robot.integrate(&q, &scaled, &mut step_q).map_err(ConstraintError::from)?;
             unprojected.copy_from_slice(&step_q);
             let rep = project(robot, stack, &settings.projection, &mut step_q, buf)?;
             projections += 1;
@@ -182,11 +205,11 @@ pub fn walk(
             // Progress first: near the closest point to an off-manifold target the step is
             // almost normal to the manifold and projection undoes it; that is the end of the
             // walk, not a branch jump.
-            let new_dist = robot.distance(&step_q, qb)?;
+            let new_dist = robot.distance(&step_q, qb).map_err(ConstraintError::from)?;
             if dist - new_dist < MIN_PROGRESS * step_len {
                 return done(path, WalkStop::NoProgress { distance: dist }, projections);
             }
-            let deviation = robot.distance(&unprojected, &step_q)?;
+            let deviation = robot.distance(&unprojected, &step_q).map_err(ConstraintError::from)?;
             if deviation > settings.max_deviation * step_len {
                 return done(
                     path,
@@ -196,7 +219,7 @@ pub fn walk(
                     projections,
                 );
             }
-            let moved = robot.distance(&q, &step_q)?;
+            let moved = robot.distance(&q, &step_q).map_err(ConstraintError::from)?;
             if moved <= settings.stride {
                 break new_dist;
             }
@@ -210,6 +233,9 @@ pub fn walk(
             }
             frac *= 0.5;
         };
+        if !keep(&q, &step_q)? {
+            return done(path, WalkStop::Refused, projections);
+        }
         dist = new_dist;
         q.copy_from_slice(&step_q);
         path.push(step_q.clone());
