@@ -5,15 +5,17 @@
 //!         [--sampling-margin M|none] [--shortcuts N] [--segment-share S]
 //!         [--plan-margin M|none]
 //!
-//! For each scenario and seed 1..=N: `plan_motion` with default settings; prints successes,
-//! median and 95th percentile of the planning stage and of the whole pipeline (plan, densify,
-//! time, resample, verify), and the mean planner work.
+//! Scenarios: `free` (the bar-slide arm and goal with no grip: a free query), `door`, `lever`,
+//! `bar_slide`, `carry`. For each scenario and seed 1..=N: `plan_motion` with default
+//! settings; prints successes, median and 95th percentile of the planning stage and of the
+//! whole pipeline (plan, densify, time, resample, verify), and the mean planner work.
 
 use std::time::Duration;
 
 use clamber::demo::{bar_slide, carry, door, lever};
 use clamber::motion::{plan_motion, MotionSettings, PlannerChoice};
 use clamber::scenario::Scenario;
+use clamber::scene::Stance;
 
 /// A demo scenario's builder.
 type Builder = fn() -> Result<Scenario, clamber::demo::door::DemoError>;
@@ -25,6 +27,15 @@ fn percentile(sorted: &[Duration], p: f64) -> Duration {
     // Nearest rank (common practice).
     let rank = ((p * sorted.len() as f64).ceil() as usize).clamp(1, sorted.len());
     sorted[rank - 1]
+}
+
+/// A free query for the same planner code: the bar-slide arm, start and goal, with no grip
+/// held (the C-space is the joint box; the ball and the rail are still obstacles).
+fn free_arm() -> Result<Scenario, clamber::demo::door::DemoError> {
+    let mut s = bar_slide::scenario()?;
+    s.name = "free".into();
+    s.start.stance = Stance::new();
+    Ok(s)
 }
 
 fn ms(d: Duration) -> f64 {
@@ -116,6 +127,7 @@ fn main() -> anyhow::Result<()> {
         i += 1;
     }
     let builders: Vec<(&str, Builder)> = vec![
+        ("free", free_arm),
         ("door", door::scenario),
         ("lever", lever::scenario),
         ("bar_slide", bar_slide::scenario),

@@ -28,7 +28,8 @@ use thiserror::Error;
 use crate::collision::{CollisionError, CollisionModel, CollisionScratch};
 use crate::constraint::{ConstraintError, ConstraintStack};
 use crate::cspace::{
-    CSpaceError, ClearanceMargin, ConfigSpace, ConstrainedSpace, FreeSpace, SamplingBox, SegmentSampling,
+    CSpaceError, ClearanceMargin, ConfigSpace, ConstrainedSpace, FreeSpace, SamplingBox,
+    SegmentSampling,
 };
 use crate::kinematics::forward_kinematics;
 use crate::math::Pose;

@@ -142,8 +142,12 @@ pub fn walk_checked<E: From<ConstraintError>>(
     mut keep: impl FnMut(&[f64], &[f64]) -> Result<bool, E>,
 ) -> Result<Walk, E> {
     settings.validate().map_err(ConstraintError::from)?;
-    robot.check_configuration(qa).map_err(ConstraintError::from)?;
-    robot.check_configuration(qb).map_err(ConstraintError::from)?;
+    robot
+        .check_configuration(qa)
+        .map_err(ConstraintError::from)?;
+    robot
+        .check_configuration(qb)
+        .map_err(ConstraintError::from)?;
     let tol = settings.projection.tolerance;
     let mut projections = 0;
     let start_res = stack.evaluate(robot, qa, &mut buf.stack, false)?;
@@ -185,13 +189,17 @@ pub fn walk_checked<E: From<ConstraintError>>(
             path.push(qb.to_vec());
             return done(path, WalkStop::Reached, projections);
         }
-        robot.difference(&q, qb, &mut dir).map_err(ConstraintError::from)?;
+        robot
+            .difference(&q, qb, &mut dir)
+            .map_err(ConstraintError::from)?;
         let mut frac = (settings.stride / dist).min(1.0);
         let mut halvings = 0;
         let new_dist = loop {
             let step_len = dist * frac;
             scaled.iter_mut().zip(&dir).for_each(|(s, d)| *s = d * frac);
-            robot.integrate(&q, &scaled, &mut step_q).map_err(ConstraintError::from)?;
+            robot
+                .integrate(&q, &scaled, &mut step_q)
+                .map_err(ConstraintError::from)?;
             unprojected.copy_from_slice(&step_q);
             let rep = project(robot, stack, &settings.projection, &mut step_q, buf)?;
             projections += 1;
@@ -209,7 +217,9 @@ pub fn walk_checked<E: From<ConstraintError>>(
             if dist - new_dist < MIN_PROGRESS * step_len {
                 return done(path, WalkStop::NoProgress { distance: dist }, projections);
             }
-            let deviation = robot.distance(&unprojected, &step_q).map_err(ConstraintError::from)?;
+            let deviation = robot
+                .distance(&unprojected, &step_q)
+                .map_err(ConstraintError::from)?;
             if deviation > settings.max_deviation * step_len {
                 return done(
                     path,

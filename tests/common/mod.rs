@@ -323,6 +323,12 @@ pub fn jacobian_fd_error(robot: &Robot, stack: &ConstraintStack, q: &[f64]) -> f
 /// A point robot: three prismatic joints x, y, z (box limits `[-half, half]`), the point
 /// being the origin of link `point`.
 pub fn point_robot(half: f64) -> Robot {
+    point_robot_with(half, vec![])
+}
+
+/// [`point_robot`] whose link `point` carries `shapes` (collision geometry).
+pub fn point_robot_with(half: f64, shapes: Vec<clamber::model::Shape>) -> Robot {
+    let mut shapes = Some(shapes);
     let mut joints = vec![];
     let mut links = vec![LinkSpec {
         name: "world".into(),
@@ -341,7 +347,11 @@ pub fn point_robot(half: f64) -> Robot {
         };
         links.push(LinkSpec {
             name: child.clone(),
-            shapes: vec![],
+            shapes: if name == "z" {
+                shapes.take().unwrap_or_default()
+            } else {
+                vec![]
+            },
         });
         joints.push(joint(
             name,
