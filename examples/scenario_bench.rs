@@ -3,7 +3,7 @@
 //!     cargo run --release --example scenario_bench -- [--seeds 100] [--only door]
 //!         [--plan-fraction F] [--max-step D] [--planner rrt|prm|both]
 //!         [--sampling-margin M|none] [--shortcuts N] [--segment-share S]
-//!         [--plan-margin M|none]
+//!         [--plan-margin M|none] [--plan-clearance C]
 //!
 //! Scenarios: `free` (the bar-slide arm and goal with no grip: a free query), `door`, `lever`,
 //! `bar_slide`, `carry`. For each scenario and seed 1..=N: `plan_motion` with default
@@ -53,6 +53,7 @@ fn main() -> anyhow::Result<()> {
     let mut margin: Option<Option<f64>> = None;
     let mut shortcuts: Option<usize> = None;
     let mut plan_margin: Option<Option<f64>> = None;
+    let mut plan_clearance: Option<f64> = None;
     let mut i = 1;
     while i < args.len() {
         match args[i].as_str() {
@@ -110,6 +111,14 @@ fn main() -> anyhow::Result<()> {
                 plan_margin = Some(if v == "none" { None } else { Some(v.parse()?) });
                 i += 1;
             }
+            "--plan-clearance" => {
+                plan_clearance = Some(
+                    args.get(i + 1)
+                        .ok_or_else(|| anyhow::anyhow!("--plan-clearance needs a number"))?
+                        .parse()?,
+                );
+                i += 1;
+            }
             "--shortcuts" => {
                 shortcuts = Some(
                     args.get(i + 1)
@@ -148,6 +157,9 @@ fn main() -> anyhow::Result<()> {
     }
     if let Some(m) = plan_margin {
         settings.plan_margin = m;
+    }
+    if let Some(c) = plan_clearance {
+        settings.plan_clearance = c;
     }
     if let Some(n) = shortcuts {
         settings.shortcut_attempts = n;

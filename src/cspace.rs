@@ -6,7 +6,7 @@
 use rand::Rng;
 use thiserror::Error;
 
-use crate::collision::{CollisionError, CollisionModel, CollisionScratch};
+use crate::collision::{CollisionError, CollisionModel, CollisionScratch, TOUCH_TOLERANCE};
 use crate::constraint::{ConstraintError, ConstraintStack};
 use crate::kinematics::forward_kinematics;
 use crate::math::Pose;
@@ -182,7 +182,11 @@ impl SegmentSampling {
 /// A clearance margin for coarse collision checks along motions (see
 /// [`FreeSpace::with_clearance_margin`]): a stretch of a motion between two checked points is
 /// accepted unseen only when both points are at least `margin` metres from every obstacle;
-/// otherwise its inside is checked at `fine_resolution`.
+/// otherwise its inside is checked at `fine_resolution`. Points inside a straight segment
+/// (not its ends) must also keep `interior` metres from every obstacle: a shallow graze
+/// between two checked points is then still clear of the obstacle itself, so a later, denser
+/// check (the verifier's) does not find it touching. The ends of a segment (walk points,
+/// start and goal) are judged exactly.
 ///
 /// Written by hand: this is the planner's own adaptive spacing, which no library offers for
 /// a C-space of our shape.
@@ -190,13 +194,25 @@ impl SegmentSampling {
 pub struct ClearanceMargin {
     pub margin: f64,
     pub fine_resolution: f64,
+    pub interior: f64,
 }
 
 impl ClearanceMargin {
-    pub fn new(margin: f64, fine_resolution: f64) -> Result<Self, CSpaceError> {
+    /// `interior` must be at least 0 and below `margin`.
+    pub fn new(margin: f64, fine_resolution: f64, interior: f64) -> Result<Self, CSpaceError> {
+        let margin = positive("clearance margin", margin)?;
+        if !(interior.is_finite() && interior >= 0.0 && interior < margin) {
+            return Err(SettingsError::OutOfRange {
+                name: "interior clearance",
+                expected: "at least 0 and below the clearance margin",
+                got: interior,
+            }
+            .into());
+        }
         Ok(ClearanceMargin {
-            margin: positive("clearance margin", margin)?,
+            margin,
             fine_resolution: positive("fine resolution", fine_resolution)?,
+            interior,
         })
     }
 }
@@ -280,7 +296,7 @@ impl<'a> Checker<'a> {
                 return Ok(*room);
             }
         }
-        let room = self.judge(q)?;
+        let room = self.judge(q, false)?;
         match &mut self.last_room {
             Some((last, r)) if last.len() == q.len() => {
                 last.copy_from_slice(q);
@@ -291,7 +307,9 @@ impl<'a> Checker<'a> {
         Ok(room)
     }
 
-    fn judge(&mut self, q: &[f64]) -> Result<Room, CSpaceError> {
+    /// [`Room`] of `q`; `interior`: a point inside a straight segment (held to the margin's
+    /// interior clearance) rather than one of its ends (held to touching only).
+    fn judge(&mut self, q: &[f64], interior: bool) -> Result<Room, CSpaceError> {
         let (Some(margin), Some(model)) = (self.margin, self.collision) else {
             return Ok(if self.free(q)? {
                 Room::Clear
@@ -307,13 +325,20 @@ impl<'a> Checker<'a> {
         if !model.in_collision_with_margin(&self.poses, margin.margin, &mut self.scratch)? {
             return Ok(Room::Clear);
         }
-        // The poses are current: ask again without the margin.
-        self.stats.collision_checks += 1;
-        Ok(if model.in_collision(&self.poses, &mut self.scratch)? {
-            Room::Blocked
+        // The poses are current: ask again with the blocking distance.
+        let block = if interior {
+            margin.interior.max(TOUCH_TOLERANCE)
         } else {
-            Room::Close
-        })
+            TOUCH_TOLERANCE
+        };
+        self.stats.collision_checks += 1;
+        Ok(
+            if model.in_collision_with_margin(&self.poses, block, &mut self.scratch)? {
+                Room::Blocked
+            } else {
+                Room::Close
+            },
+        )
     }
 
     /// Every point of the straight segment a -> b at spacing <= `resolution` (excluding a) free.
@@ -347,7 +372,11 @@ impl<'a> Checker<'a> {
                     .interpolate(a, b, k as f64 / steps as f64, &mut q)
                     .map_err(ConstraintError::from)?;
             }
-            let room = self.room(&q)?;
+            let room = if k == steps {
+                self.room(&q)?
+            } else {
+                self.judge(&q, true)?
+            };
             if room == Room::Blocked {
                 return Ok(false);
             }
@@ -357,7 +386,7 @@ impl<'a> Checker<'a> {
                     self.robot
                         .interpolate(a, b, t, &mut q)
                         .map_err(ConstraintError::from)?;
-                    if !self.free(&q)? {
+                    if self.judge(&q, true)? == Room::Blocked {
                         return Ok(false);
                     }
                 }

@@ -93,6 +93,10 @@ pub struct MotionSettings {
     /// at `plan_fraction` only. A filter that keeps the verifier from rejecting coarse
     /// plans, not a proof: the verifier still checks every motion.
     pub plan_margin: Option<f64>,
+    /// With `plan_margin`: points inside the planner's straight segments must keep this many
+    /// metres from obstacles (the segments' ends only must not touch), so a graze the coarse
+    /// checks miss is not found touching by the verifier. At least 0, below `plan_margin`.
+    pub plan_clearance: f64,
     /// Translational coordinates (mobile base, floating base position) of planner samples
     /// are drawn within the hull of start and goal widened by this many metres
     /// ([`crate::cspace::SamplingBox`]); `None` samples the whole joint range.
@@ -122,6 +126,7 @@ impl Default for MotionSettings {
             verify_fraction: 0.1,
             plan_fraction: 0.5,
             plan_margin: Some(0.01),
+            plan_clearance: 0.001,
             sampling_margin: Some(1.0),
             segment_share: 0.0,
             segment_spread: 0.6,
@@ -160,6 +165,16 @@ impl MotionSettings {
         share("segment_share", self.segment_share)?;
         if let Some(m) = self.plan_margin {
             positive("plan_margin", m)?;
+        }
+        if !(self.plan_clearance.is_finite()
+            && self.plan_clearance >= 0.0
+            && self.plan_margin.is_none_or(|m| self.plan_clearance < m))
+        {
+            return Err(SettingsError::OutOfRange {
+                name: "plan_clearance",
+                expected: "at least 0 and below plan_margin",
+                got: self.plan_clearance,
+            });
         }
         if let Some(m) = self.sampling_margin {
             if !(m.is_finite() && m >= 0.0) {
@@ -394,7 +409,7 @@ pub fn plan_motion(scenario: &Scenario, settings: &MotionSettings) -> Result<Mot
     )?;
     let clearance = settings
         .plan_margin
-        .map(|m| ClearanceMargin::new(m, resolution))
+        .map(|m| ClearanceMargin::new(m, resolution, settings.plan_clearance))
         .transpose()?;
     let sampling_box = settings
         .sampling_margin

@@ -93,7 +93,7 @@ fn a_thin_wall_between_coarse_points_is_found_only_with_the_margin() {
         accepted(&mut coarse, &a, &b),
         "without a margin the coarse check sees only the ends and misses the wall"
     );
-    let margin = ClearanceMargin::new(0.01, 0.005).unwrap();
+    let margin = ClearanceMargin::new(0.01, 0.005, 0.0).unwrap();
     let mut guarded = FreeSpace::new(&robot, Some(&model), spacing)
         .unwrap()
         .with_clearance_margin(margin);
@@ -122,14 +122,22 @@ fn a_thin_wall_between_coarse_points_is_found_only_with_the_margin() {
 
 #[test]
 fn margin_settings_are_checked() {
-    assert!(ClearanceMargin::new(0.0, 0.005).is_err());
-    assert!(ClearanceMargin::new(0.01, -1.0).is_err());
-    assert!(ClearanceMargin::new(f64::NAN, 0.005).is_err());
+    assert!(ClearanceMargin::new(0.0, 0.005, 0.0).is_err());
+    assert!(ClearanceMargin::new(0.01, -1.0, 0.0).is_err());
+    assert!(ClearanceMargin::new(f64::NAN, 0.005, 0.0).is_err());
     let s = clamber::motion::MotionSettings {
         plan_margin: Some(-0.01),
         ..Default::default()
     };
     assert!(s.validate().is_err());
+    let s = clamber::motion::MotionSettings {
+        plan_clearance: 0.02, // not below the default 0.01 margin
+        ..Default::default()
+    };
+    assert!(s.validate().is_err());
+    assert!(clamber::motion::MotionSettings::default()
+        .validate()
+        .is_ok());
 }
 
 proptest! {
@@ -161,7 +169,7 @@ proptest! {
         let fine = 0.005;
         let mut space = FreeSpace::new(&robot, Some(&model), spacing)
             .unwrap()
-            .with_clearance_margin(ClearanceMargin::new(spacing / 2.0, fine).unwrap());
+            .with_clearance_margin(ClearanceMargin::new(spacing / 2.0, fine, 0.0).unwrap());
         let d = point_segment_distance(&a, &b, &c);
         let ok = accepted(&mut space, &a, &b);
         if d > touch + 1e-9 {
@@ -230,4 +238,45 @@ fn checked_walk_stops_at_the_first_refused_point() {
         w.projections
     );
     assert!(w.projections < full.projections / 2);
+}
+
+#[test]
+fn interior_points_keep_the_interior_clearance_and_ends_only_must_not_touch() {
+    let robot = ball_robot();
+    // A sphere of radius 0.05 at the origin; the ball (radius R = 0.05) passes it at a
+    // centre distance of 0.1005 m: 0.5 mm of clearance at the closest point, x = 0.
+    let rho = 0.05;
+    let model = CollisionModel::new(
+        &robot,
+        &[obstacle([0.0; 3], Geometry::Sphere { radius: rho })],
+    )
+    .unwrap();
+    let y0 = R + rho + 0.0005;
+    let (a, b) = (vec![-0.06, y0, 0.0], vec![0.06, y0, 0.0]);
+    let space = |interior: f64| {
+        FreeSpace::new(&robot, Some(&model), 0.01)
+            .unwrap()
+            .with_clearance_margin(ClearanceMargin::new(0.01, 0.005, interior).unwrap())
+    };
+    // Closed form: the closest point of the chord is 0.5 mm clear.
+    assert!((point_segment_distance(&a, &b, &[0.0; 3]) - (R + rho) - 0.0005).abs() < 1e-12);
+    assert!(
+        accepted(&mut space(0.0), &a, &b),
+        "0.5 mm of clearance passes when only touching blocks"
+    );
+    assert!(
+        !accepted(&mut space(0.001), &a, &b),
+        "0.5 mm inside a straight segment is refused with 1 mm interior clearance"
+    );
+    // An end 0.5 mm from the sphere is judged exactly: reached head-on (every interior
+    // point farther away) it is accepted with the 1 mm interior clearance.
+    let end = vec![0.0, y0, 0.0];
+    let from = vec![0.0, y0 + 0.1, 0.0];
+    assert!(accepted(&mut space(0.001), &from, &end));
+    assert!(accepted(&mut space(0.001), &end, &from));
+    assert!(
+        ClearanceMargin::new(0.01, 0.005, 0.01).is_err(),
+        "interior must be below the margin"
+    );
+    assert!(ClearanceMargin::new(0.01, 0.005, -0.001).is_err());
 }
