@@ -92,6 +92,7 @@ impl Exit {
                 Some(cli::CommandError::NoRoute(_)) => return Exit::NoRoute,
                 Some(cli::CommandError::Verification(_)) => return Exit::Verification,
                 Some(cli::CommandError::BadSuite(_)) => return Exit::BadInput,
+                Some(cli::CommandError::Usage(_)) => return Exit::Usage,
                 None => {}
             }
         }
@@ -104,6 +105,22 @@ impl Exit {
             s.push_str(&format!("  {}  {what}\n", e.code()));
         }
         s
+    }
+}
+
+/// `clamber plan --planner` values.
+#[derive(Clone, Copy, Debug, clap::ValueEnum)]
+enum PlannerArg {
+    LazyPrm,
+    RrtConnect,
+}
+
+impl PlannerArg {
+    fn choice(self) -> clamber::motion::PlannerChoice {
+        match self {
+            PlannerArg::LazyPrm => clamber::motion::PlannerChoice::LazyPrm,
+            PlannerArg::RrtConnect => clamber::motion::PlannerChoice::RrtConnect,
+        }
     }
 }
 
@@ -159,6 +176,10 @@ enum Command {
         /// Random seed, instead of the scenario's `limits.seed`.
         #[arg(long)]
         seed: Option<u64>,
+        /// Planner of a single-stance motion (a goal configuration): lazy-prm (the default)
+        /// or rrt-connect. Route legs always use RRT-Connect.
+        #[arg(long, value_enum)]
+        planner: Option<PlannerArg>,
     },
     /// Switch feasibility over a scenario's scene: for each effector and pair of holds,
     /// feasible or not, with reach margin and clearance at the best switch pose.
@@ -626,10 +647,12 @@ fn main() -> ExitCode {
             plots,
             time_limit,
             seed,
+            planner,
         } => {
-            let limits = cli::LimitOverrides {
+            let limits = cli::PlanOverrides {
                 time_limit: time_limit.map(std::time::Duration::from_secs_f64),
                 seed: *seed,
+                planner: planner.map(PlannerArg::choice),
             };
             cli::plan(file, output.clone(), plots.clone(), limits, style.json)
                 .map(|t| print_unless_quiet(&t, style))

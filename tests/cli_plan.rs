@@ -155,3 +155,62 @@ fn check_prints_a_feasibility_table_and_json() {
     let v: serde_json::Value = serde_json::from_slice(&out.stdout).expect("JSON");
     assert!(v.to_string().contains("far_rail"));
 }
+
+#[test]
+fn planner_option_picks_the_motion_planner_and_is_refused_for_a_route() {
+    let dir = tempfile::tempdir().unwrap();
+    let root = Path::new(env!("CARGO_MANIFEST_DIR"));
+    let text =
+        std::fs::read_to_string(root.join("scenarios/sevenfold_lever.scenario.toml")).unwrap();
+    let robot = root.join("robots/sevenfold.toml");
+    let text = text.replace(
+        "robot = \"../robots/sevenfold.toml\"",
+        &format!("robot = {:?}", robot.display().to_string()),
+    );
+    let lever = dir.path().join("lever.scenario.toml");
+    std::fs::write(&lever, text).unwrap();
+    // The motion JSON records the planner that made it (stats.planner).
+    for (arg, recorded) in [
+        (None, "LazyPrm"),
+        (Some("rrt-connect"), "RrtConnect"),
+        (Some("lazy-prm"), "LazyPrm"),
+    ] {
+        let out_file = dir
+            .path()
+            .join(format!("m-{}.json", arg.unwrap_or("default")));
+        let mut cmd = Command::new(bin());
+        cmd.arg("plan").arg(&lever).arg("-o").arg(&out_file);
+        if let Some(a) = arg {
+            cmd.args(["--planner", a]);
+        }
+        let out = cmd.output().unwrap();
+        assert_eq!(
+            out.status.code(),
+            Some(0),
+            "{}",
+            String::from_utf8_lossy(&out.stderr)
+        );
+        let doc: serde_json::Value =
+            serde_json::from_str(&std::fs::read_to_string(&out_file).unwrap()).unwrap();
+        assert_eq!(doc["stats"]["planner"], recorded, "--planner {arg:?}");
+    }
+    // A route goal: exit 2 (bad command line, docs/cli.md), a reason, no file.
+    let rail = scenario_in(dir.path(), None);
+    let route = dir.path().join("refused.json");
+    let out = Command::new(bin())
+        .arg("plan")
+        .arg(&rail)
+        .arg("-o")
+        .arg(&route)
+        .args(["--planner", "rrt-connect"])
+        .output()
+        .unwrap();
+    assert_eq!(out.status.code(), Some(2));
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert!(
+        err.contains("--planner applies to a goal configuration"),
+        "{err}"
+    );
+    assert!(!route.exists());
+    assert!(!dir.path().join("run.route.json").exists());
+}

@@ -167,7 +167,7 @@ fn run_one(f: &ScenarioFile, seed: u64, time_limit: Option<Duration>) -> Run {
         f.scenario.limits.time_limit = t;
     }
     let t0 = Instant::now();
-    let result = plan_scenario(&f);
+    let result = plan_scenario(&f, None);
     let seconds = t0.elapsed().as_secs_f64();
     let mut run = Run {
         scenario: f.scenario.name.clone(),

@@ -12,7 +12,7 @@ use std::path::{Path, PathBuf};
 use anyhow::{Context, Result};
 
 use clamber::model::{JointKind, Robot};
-use clamber::motion::{plan_motion, Motion, MotionError, MotionSettings};
+use clamber::motion::{plan_motion, Motion, MotionError, MotionSettings, PlannerChoice};
 use clamber::output::write_atomic;
 use clamber::plot::plot_bytes;
 use clamber::plot_data::{motion_plot_data, route_plot_data};
@@ -33,6 +33,9 @@ pub enum CommandError {
     /// A bench suite file that cannot be read or is malformed.
     #[error("{0}")]
     BadSuite(String),
+    /// A command-line option that does not fit the input (exit code 2, like a clap error).
+    #[error("{0}")]
+    Usage(String),
 }
 
 /// What `plan` produced: a multi-stance route or a single-stance motion.
@@ -76,10 +79,17 @@ pub fn trajectory_csv(robot: &Robot, rows: &[(f64, &[f64])]) -> String {
     s
 }
 
-pub(crate) fn plan_scenario(f: &ScenarioFile) -> Result<Planned> {
+/// Plan a loaded scenario: a single-stance motion for a goal configuration (with `planner`,
+/// or the default planner), a route otherwise (route legs always use RRT-Connect; asking
+/// for a planner there is a usage error).
+pub(crate) fn plan_scenario(f: &ScenarioFile, planner: Option<PlannerChoice>) -> Result<Planned> {
     let s = &f.scenario;
     if matches!(s.goal, Goal::Configuration(_)) {
-        match plan_motion(s, &MotionSettings::default()) {
+        let mut settings = MotionSettings::default();
+        if let Some(p) = planner {
+            settings.planner = p;
+        }
+        match plan_motion(s, &settings) {
             Ok(m) => Ok(Planned::Motion(Box::new(m))),
             Err(MotionError::NoPath { .. }) => Err(CommandError::NoRoute(
                 "no path to the goal configuration within the limits".into(),
@@ -88,6 +98,14 @@ pub(crate) fn plan_scenario(f: &ScenarioFile) -> Result<Planned> {
             Err(e) => Err(e).context("planning the motion"),
         }
     } else {
+        if planner.is_some() {
+            return Err(CommandError::Usage(
+                "--planner applies to a goal configuration (`goal.q`, a single-stance motion); \
+                 this scenario's goal is a route, whose legs are planned with RRT-Connect"
+                    .into(),
+            )
+            .into());
+        }
         match plan_route(s, &RouteSettings::default()) {
             Ok(r) => Ok(Planned::Route(Box::new(r))),
             Err(RouteError::NoRoute(x)) => Err(CommandError::NoRoute(x.to_string()).into()),
@@ -217,9 +235,11 @@ pub fn write_outputs(files: Vec<(PathBuf, Vec<u8>)>) -> Result<Vec<PathBuf>> {
 
 /// Limits given on the command line, replacing the scenario file's.
 #[derive(Clone, Copy, Debug, Default)]
-pub struct LimitOverrides {
+pub struct PlanOverrides {
     pub time_limit: Option<std::time::Duration>,
     pub seed: Option<u64>,
+    /// The planner of a single-stance motion (`None`: the default, lazy PRM).
+    pub planner: Option<PlannerChoice>,
 }
 
 /// `clamber plan`: plan, verify (inside the library), render the plots and write the outputs
@@ -228,7 +248,7 @@ pub fn plan(
     file: &Path,
     route_out: Option<PathBuf>,
     plots_out: Option<PathBuf>,
-    overrides: LimitOverrides,
+    overrides: PlanOverrides,
     json: bool,
 ) -> Result<String> {
     let mut f = load_scenario(file)?;
@@ -239,7 +259,7 @@ pub fn plan(
         f.scenario.limits.seed = seed;
     }
     let s = &f.scenario;
-    let planned = plan_scenario(&f)?;
+    let planned = plan_scenario(&f, overrides.planner)?;
     let (doc, csv) = match &planned {
         Planned::Route(r) => {
             let rows: Vec<(f64, &[f64])> = r
