@@ -7,6 +7,8 @@
 //!
 //! Exit code and behaviour as documented in docs/cli.md.
 
+mod common;
+
 use std::path::{Path, PathBuf};
 use std::process::{Child, Command, Stdio};
 use std::time::{Duration, Instant};
@@ -17,19 +19,7 @@ fn root() -> &'static Path {
 
 /// A bundled scenario copied into `dir` with absolute robot path and every output in `dir`.
 fn scenario_in(dir: &Path, name: &str, robot: &str) -> PathBuf {
-    let text = std::fs::read_to_string(root().join(format!("scenarios/{name}.scenario.toml")))
-        .unwrap()
-        .replace(
-            &format!("robot = \"../robots/{robot}\""),
-            &format!(
-                "robot = {:?}",
-                root().join("robots").join(robot).display().to_string()
-            ),
-        )
-        .replace(&format!("out/{name}"), "run");
-    let p = dir.join("s.scenario.toml");
-    std::fs::write(&p, text).unwrap();
-    p
+    common::bundled_scenario_in(dir, name, robot, "s.scenario.toml", &[])
 }
 
 /// A 200-bar climbing corridor (`demo::climb::corridor`) with a 120 s time limit, written

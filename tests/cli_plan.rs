@@ -6,6 +6,8 @@
 //! hand (a waypoint moved by 0.05 rad, far beyond the 1e-3 path tolerance on a 0.3 m lever
 //! arm) must be rejected with exit code 5, as documented in docs/cli.md.
 
+mod common;
+
 use std::path::{Path, PathBuf};
 use std::process::Command;
 
@@ -15,21 +17,17 @@ fn bin() -> PathBuf {
 
 /// The rail scenario, copied into `dir` with an absolute robot path and outputs in `dir`.
 fn scenario_in(dir: &Path, peg_xyz: Option<&str>) -> PathBuf {
-    let root = Path::new(env!("CARGO_MANIFEST_DIR"));
-    let text =
-        std::fs::read_to_string(root.join("scenarios/sevenfold_rail.scenario.toml")).unwrap();
-    let robot = root.join("robots/sevenfold.toml");
-    let mut text = text.replace(
-        "robot = \"../robots/sevenfold.toml\"",
-        &format!("robot = {:?}", robot.display().to_string()),
-    );
-    text = text.replace("out/sevenfold_rail", "run");
-    if let Some(xyz) = peg_xyz {
-        text = text.replace("xyz = [0.35, 0.35, 0.4]", xyz);
-    }
-    let p = dir.join("rail.scenario.toml");
-    std::fs::write(&p, text).unwrap();
-    p
+    let edits: Vec<(&str, &str)> = peg_xyz
+        .map(|xyz| ("xyz = [0.35, 0.35, 0.4]", xyz))
+        .into_iter()
+        .collect();
+    common::bundled_scenario_in(
+        dir,
+        "sevenfold_rail",
+        "sevenfold.toml",
+        "rail.scenario.toml",
+        &edits,
+    )
 }
 
 #[test]
@@ -159,16 +157,13 @@ fn check_prints_a_feasibility_table_and_json() {
 #[test]
 fn planner_option_picks_the_motion_planner_and_is_refused_for_a_route() {
     let dir = tempfile::tempdir().unwrap();
-    let root = Path::new(env!("CARGO_MANIFEST_DIR"));
-    let text =
-        std::fs::read_to_string(root.join("scenarios/sevenfold_lever.scenario.toml")).unwrap();
-    let robot = root.join("robots/sevenfold.toml");
-    let text = text.replace(
-        "robot = \"../robots/sevenfold.toml\"",
-        &format!("robot = {:?}", robot.display().to_string()),
+    let lever = common::bundled_scenario_in(
+        dir.path(),
+        "sevenfold_lever",
+        "sevenfold.toml",
+        "lever.scenario.toml",
+        &[],
     );
-    let lever = dir.path().join("lever.scenario.toml");
-    std::fs::write(&lever, text).unwrap();
     // The motion JSON records the planner that made it (stats.planner).
     for (arg, recorded) in [
         (None, "LazyPrm"),

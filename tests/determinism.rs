@@ -6,6 +6,8 @@
 //! slow run fails there and succeeds on a fast one). The scenarios here finish far inside
 //! their limits; `docs/robustness.md` lists which limits could matter.
 
+mod common;
+
 use std::path::{Path, PathBuf};
 use std::process::Command;
 
@@ -111,19 +113,13 @@ fn threads_give_the_single_threaded_bytes() {
 
 /// The rail scenario in `dir` with an absolute robot path and outputs in `dir`.
 fn scenario_in(dir: &Path) -> PathBuf {
-    let root = Path::new(env!("CARGO_MANIFEST_DIR"));
-    let text =
-        std::fs::read_to_string(root.join("scenarios/sevenfold_rail.scenario.toml")).unwrap();
-    let robot = root.join("robots/sevenfold.toml");
-    let text = text
-        .replace(
-            "robot = \"../robots/sevenfold.toml\"",
-            &format!("robot = {:?}", robot.display().to_string()),
-        )
-        .replace("out/sevenfold_rail", "run");
-    let p = dir.join("rail.scenario.toml");
-    std::fs::write(&p, text).unwrap();
-    p
+    common::bundled_scenario_in(
+        dir,
+        "sevenfold_rail",
+        "sevenfold.toml",
+        "rail.scenario.toml",
+        &[],
+    )
 }
 
 #[test]

@@ -14,68 +14,28 @@ mod common;
 
 use clamber::collision::{CollisionModel, Obstacle};
 use clamber::constraint::{ConstraintStack, FrameRef};
-use clamber::math::{pose_from_xyz_rpy, Pose};
-use clamber::model::{Geometry, JointSpec, JointType, Limits, LinkSpec, Robot, RobotSpec, Shape};
+use clamber::math::Pose;
+use clamber::model::{Geometry, Limits, Robot, Shape};
 use clamber::plot_data::{along_path, joint_series};
 use clamber::timing::time_polyline;
 use common::Sphere;
-use nalgebra::Vector3;
 
+/// The point robot of tests/common with a ball of radius 0.1 and slow joints (0.5 m/s,
+/// 1 m/s^2).
 fn point_robot() -> Robot {
-    let mut links = vec![LinkSpec {
-        name: "world".into(),
-        shapes: vec![],
-    }];
-    let mut joints = vec![];
-    let mut parent = "world".to_string();
-    for (name, axis) in [
-        ("x", [1.0, 0.0, 0.0]),
-        ("y", [0.0, 1.0, 0.0]),
-        ("z", [0.0, 0.0, 1.0]),
-    ] {
-        let child = if name == "z" {
-            "point".to_string()
-        } else {
-            format!("slide_{name}")
-        };
-        let shapes = if name == "z" {
-            vec![Shape {
-                origin: Pose::identity(),
-                geometry: Geometry::Sphere { radius: 0.1 },
-                source: None,
-            }]
-        } else {
-            vec![]
-        };
-        links.push(LinkSpec {
-            name: child.clone(),
-            shapes,
-        });
-        joints.push(JointSpec {
-            name: name.into(),
-            joint_type: JointType::Prismatic,
-            parent: parent.clone(),
-            child: child.clone(),
-            origin: pose_from_xyz_rpy([0.0; 3], [0.0; 3]),
-            axis: Vector3::from(axis),
-            limits: vec![Limits {
-                lower: -2.0,
-                upper: 2.0,
-                velocity: 0.5,
-                acceleration: 1.0,
-            }],
-            passive: false,
-        });
-        parent = child;
-    }
-    RobotSpec {
-        name: "point".into(),
-        links,
-        joints,
-        ..Default::default()
-    }
-    .build()
-    .unwrap()
+    common::point_robot_limited(
+        Limits {
+            lower: -2.0,
+            upper: 2.0,
+            velocity: 0.5,
+            acceleration: 1.0,
+        },
+        vec![Shape {
+            origin: Pose::identity(),
+            geometry: Geometry::Sphere { radius: 0.1 },
+            source: None,
+        }],
+    )
 }
 
 fn setup() -> (Robot, ConstraintStack, CollisionModel) {

@@ -2,6 +2,8 @@
 //! documented sizes, with the data drawn), and the plotted series agree with the route and
 //! with an outside check (finite differences of the positions against the velocities).
 
+mod common;
+
 use std::path::{Path, PathBuf};
 use std::process::Command;
 
@@ -17,18 +19,13 @@ fn root() -> &'static Path {
 
 /// The rail scenario, copied into `dir` with an absolute robot path and outputs in `dir`.
 fn scenario_in(dir: &Path) -> PathBuf {
-    let text =
-        std::fs::read_to_string(root().join("scenarios/sevenfold_rail.scenario.toml")).unwrap();
-    let robot = root().join("robots/sevenfold.toml");
-    let text = text
-        .replace(
-            "robot = \"../robots/sevenfold.toml\"",
-            &format!("robot = {:?}", robot.display().to_string()),
-        )
-        .replace("out/sevenfold_rail", "run");
-    let p = dir.join("rail.scenario.toml");
-    std::fs::write(&p, text).unwrap();
-    p
+    common::bundled_scenario_in(
+        dir,
+        "sevenfold_rail",
+        "sevenfold.toml",
+        "rail.scenario.toml",
+        &[],
+    )
 }
 
 fn png_size_and_ink(path: &Path) -> ((u32, u32), usize, usize) {

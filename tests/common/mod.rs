@@ -1,4 +1,5 @@
-//! Robots built in code for tests (independent of the file loaders).
+//! Robots built in code for tests (independent of the file loaders), and bundled scenario
+//! files copied into a scratch directory.
 #![allow(dead_code)]
 
 use clamber::math::{pose_from_xyz_rpy, Pose};
@@ -328,6 +329,19 @@ pub fn point_robot(half: f64) -> Robot {
 
 /// [`point_robot`] whose link `point` carries `shapes` (collision geometry).
 pub fn point_robot_with(half: f64, shapes: Vec<clamber::model::Shape>) -> Robot {
+    point_robot_limited(
+        Limits {
+            lower: -half,
+            upper: half,
+            velocity: 2.0,
+            acceleration: 5.0,
+        },
+        shapes,
+    )
+}
+
+/// [`point_robot_with`] with `limits` on each of the three joints.
+pub fn point_robot_limited(limits: Limits, shapes: Vec<clamber::model::Shape>) -> Robot {
     let mut shapes = Some(shapes);
     let mut joints = vec![];
     let mut links = vec![LinkSpec {
@@ -353,15 +367,17 @@ pub fn point_robot_with(half: f64, shapes: Vec<clamber::model::Shape>) -> Robot 
                 vec![]
             },
         });
-        joints.push(joint(
+        let mut j = joint(
             name,
             JointType::Prismatic,
             &parent,
             &child,
             [0.0; 3],
             axis,
-            Some((-half, half)),
-        ));
+            None,
+        );
+        j.limits = vec![limits];
+        joints.push(j);
         parent = child;
     }
     RobotSpec {
@@ -408,4 +424,33 @@ impl clamber::constraint::Constraint for Sphere {
         }
         Ok(())
     }
+}
+
+/// `scenarios/NAME.scenario.toml` copied into `dir` as `file_name`: the robot path
+/// (`../robots/ROBOT`) made absolute, the outputs `out/NAME...` renamed to `run...` (so they
+/// land in `dir`), then each `(from, to)` of `edits` replaced.
+pub fn bundled_scenario_in(
+    dir: &std::path::Path,
+    name: &str,
+    robot: &str,
+    file_name: &str,
+    edits: &[(&str, &str)],
+) -> std::path::PathBuf {
+    let root = std::path::Path::new(env!("CARGO_MANIFEST_DIR"));
+    let mut text = std::fs::read_to_string(root.join(format!("scenarios/{name}.scenario.toml")))
+        .unwrap()
+        .replace(
+            &format!("robot = \"../robots/{robot}\""),
+            &format!(
+                "robot = {:?}",
+                root.join("robots").join(robot).display().to_string()
+            ),
+        )
+        .replace(&format!("out/{name}"), "run");
+    for (from, to) in edits {
+        text = text.replace(from, to);
+    }
+    let p = dir.join(file_name);
+    std::fs::write(&p, text).unwrap();
+    p
 }
