@@ -38,102 +38,50 @@ fn free_arm() -> Result<Scenario, clamber::demo::door::DemoError> {
     Ok(s)
 }
 
+/// A number, or `none` for a setting that can be off.
+fn optional(v: &str) -> anyhow::Result<Option<f64>> {
+    Ok(if v == "none" { None } else { Some(v.parse()?) })
+}
+
 fn ms(d: Duration) -> f64 {
     d.as_secs_f64() * 1e3
 }
 
 fn main() -> anyhow::Result<()> {
-    let args: Vec<String> = std::env::args().collect();
+    let args: Vec<String> = std::env::args().skip(1).collect();
     let mut seeds = 100u64;
     let mut only: Option<String> = None;
-    let mut plan_fraction: Option<f64> = None;
-    let mut segment_share: Option<f64> = None;
-    let mut max_step: Option<f64> = None;
     let mut planners = vec![PlannerChoice::RrtConnect, PlannerChoice::LazyPrm];
-    let mut margin: Option<Option<f64>> = None;
-    let mut shortcuts: Option<usize> = None;
-    let mut plan_margin: Option<Option<f64>> = None;
-    let mut plan_clearance: Option<f64> = None;
-    let mut i = 1;
-    while i < args.len() {
-        match args[i].as_str() {
-            "--seeds" => {
-                seeds = args
-                    .get(i + 1)
-                    .ok_or_else(|| anyhow::anyhow!("--seeds needs a number"))?
-                    .parse()?;
-                i += 1;
-            }
-            "--segment-share" => {
-                segment_share = Some(
-                    args.get(i + 1)
-                        .ok_or_else(|| anyhow::anyhow!("--segment-share needs a number"))?
-                        .parse()?,
-                );
-                i += 1;
-            }
-            "--plan-fraction" => {
-                plan_fraction = Some(
-                    args.get(i + 1)
-                        .ok_or_else(|| anyhow::anyhow!("--plan-fraction needs a number"))?
-                        .parse()?,
-                );
-                i += 1;
-            }
-            "--max-step" => {
-                max_step = Some(
-                    args.get(i + 1)
-                        .ok_or_else(|| anyhow::anyhow!("--max-step needs a number"))?
-                        .parse()?,
-                );
-                i += 1;
-            }
+    let mut settings = MotionSettings::default();
+    let mut it = args.iter();
+    while let Some(flag) = it.next() {
+        let mut value = || {
+            it.next()
+                .map(String::as_str)
+                .ok_or_else(|| anyhow::anyhow!("{flag} needs a value"))
+        };
+        match flag.as_str() {
+            "--seeds" => seeds = value()?.parse()?,
+            "--only" => only = Some(value()?.to_string()),
+            "--segment-share" => settings.segment_share = value()?.parse()?,
+            "--plan-fraction" => settings.plan_fraction = value()?.parse()?,
+            "--max-step" => settings.max_step = value()?.parse()?,
+            "--sampling-margin" => settings.sampling_margin = optional(value()?)?,
+            "--plan-margin" => settings.plan_margin = optional(value()?)?,
+            "--plan-clearance" => settings.plan_clearance = value()?.parse()?,
+            "--shortcuts" => settings.shortcut_attempts = value()?.parse()?,
             "--planner" => {
-                planners = match args.get(i + 1).map(String::as_str) {
-                    Some("rrt") => vec![PlannerChoice::RrtConnect],
-                    Some("prm") => vec![PlannerChoice::LazyPrm],
-                    Some("both") => vec![PlannerChoice::RrtConnect, PlannerChoice::LazyPrm],
+                planners = match value()? {
+                    "rrt" => vec![PlannerChoice::RrtConnect],
+                    "prm" => vec![PlannerChoice::LazyPrm],
+                    "both" => vec![PlannerChoice::RrtConnect, PlannerChoice::LazyPrm],
                     _ => anyhow::bail!("--planner needs rrt, prm or both"),
-                };
-                i += 1;
+                }
             }
-            "--sampling-margin" => {
-                let v = args
-                    .get(i + 1)
-                    .ok_or_else(|| anyhow::anyhow!("--sampling-margin needs a number or none"))?;
-                margin = Some(if v == "none" { None } else { Some(v.parse()?) });
-                i += 1;
-            }
-            "--plan-margin" => {
-                let v = args
-                    .get(i + 1)
-                    .ok_or_else(|| anyhow::anyhow!("--plan-margin needs a number or none"))?;
-                plan_margin = Some(if v == "none" { None } else { Some(v.parse()?) });
-                i += 1;
-            }
-            "--plan-clearance" => {
-                plan_clearance = Some(
-                    args.get(i + 1)
-                        .ok_or_else(|| anyhow::anyhow!("--plan-clearance needs a number"))?
-                        .parse()?,
-                );
-                i += 1;
-            }
-            "--shortcuts" => {
-                shortcuts = Some(
-                    args.get(i + 1)
-                        .ok_or_else(|| anyhow::anyhow!("--shortcuts needs a number"))?
-                        .parse()?,
-                );
-                i += 1;
-            }
-            "--only" => {
-                only = args.get(i + 1).cloned();
-                i += 1;
-            }
-            other => anyhow::bail!("unknown argument `{other}` (expected --seeds N, --only NAME)"),
+            other => anyhow::bail!(
+                "unknown argument `{other}` (see the options at the top of this file)"
+            ),
         }
-        i += 1;
     }
     let builders: Vec<(&str, Builder)> = vec![
         ("free", free_arm),
@@ -142,28 +90,6 @@ fn main() -> anyhow::Result<()> {
         ("bar_slide", bar_slide::scenario),
         ("carry", carry::scenario),
     ];
-    let mut settings = MotionSettings::default();
-    if let Some(f) = segment_share {
-        settings.segment_share = f;
-    }
-    if let Some(f) = plan_fraction {
-        settings.plan_fraction = f;
-    }
-    if let Some(m) = max_step {
-        settings.max_step = m;
-    }
-    if let Some(m) = margin {
-        settings.sampling_margin = m;
-    }
-    if let Some(m) = plan_margin {
-        settings.plan_margin = m;
-    }
-    if let Some(c) = plan_clearance {
-        settings.plan_clearance = c;
-    }
-    if let Some(n) = shortcuts {
-        settings.shortcut_attempts = n;
-    }
     println!("settings: {settings:?}");
     println!("| scenario | planner | success | planning median | planning p95 | pipeline median | pipeline p95 | mean samples | mean projections | mean collision checks | mean duration (s) |");
     println!("|---|---|---|---|---|---|---|---|---|---|---|");
