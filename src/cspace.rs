@@ -321,24 +321,25 @@ impl<'a> Checker<'a> {
             return Ok(Room::Blocked);
         }
         forward_kinematics(self.robot, q, &mut self.poses).map_err(ConstraintError::from)?;
-        self.stats.collision_checks += 1;
-        if !model.in_collision_with_margin(&self.poses, margin.margin, &mut self.scratch)? {
-            return Ok(Room::Clear);
-        }
-        // The poses are current: ask again with the blocking distance.
         let block = if interior {
             margin.interior.max(TOUCH_TOLERANCE)
         } else {
             TOUCH_TOLERANCE
         };
-        self.stats.collision_checks += 1;
-        Ok(
-            if model.in_collision_with_margin(&self.poses, block, &mut self.scratch)? {
-                Room::Blocked
-            } else {
-                Room::Close
-            },
-        )
+        let (blocked, close) = model.within_margins(
+            &self.poses,
+            block,
+            margin.margin.max(block),
+            &mut self.scratch,
+        )?;
+        // Counted as the queries they are: the margin, then (when something is close) the
+        // blocking distance.
+        self.stats.collision_checks += 1 + usize::from(close);
+        Ok(match (blocked, close) {
+            (true, _) => Room::Blocked,
+            (false, true) => Room::Close,
+            (false, false) => Room::Clear,
+        })
     }
 
     /// Every point of the straight segment a -> b at spacing <= `resolution` (excluding a) free.

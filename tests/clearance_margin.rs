@@ -10,7 +10,7 @@
 
 mod common;
 
-use clamber::collision::{CollisionModel, Obstacle};
+use clamber::collision::{CollisionModel, CollisionScratch, Obstacle};
 use clamber::constraint::{ConstraintStack, FrameRef};
 use clamber::cspace::{ClearanceMargin, ConfigSpace, FreeSpace};
 use clamber::math::{pose_from_xyz_rpy, Pose};
@@ -182,6 +182,38 @@ proptest! {
         // certain. Deeper than that (plus 1e-6 for the distance solver), it must be refused.
         if touch - d > fine * fine / (4.0 * touch) + 1e-6 {
             prop_assert!(!ok, "segment {:.4} deep into the obstacle accepted", touch - d);
+        }
+    }
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig::with_cases(500))]
+
+    /// `within_margins` answers as two `in_collision_with_margin` calls do, and both agree
+    /// with the closed-form distance between the ball and a sphere obstacle.
+    #[test]
+    fn two_margins_at_once_match_two_queries_and_the_closed_form(
+        q in prop::array::uniform3(-0.5f64..0.5),
+        radius in 0.01f64..0.3,
+        inner in 0.0f64..0.05,
+        extra in 0.0f64..0.1,
+    ) {
+        let robot = ball_robot();
+        let model =
+            CollisionModel::new(&robot, &[obstacle([0.0; 3], Geometry::Sphere { radius })]).unwrap();
+        let outer = inner + extra;
+        let mut poses = vec![Pose::identity(); robot.links().len()];
+        clamber::kinematics::forward_kinematics(&robot, &q, &mut poses).unwrap();
+        let mut scratch = CollisionScratch::new();
+        let both = model.within_margins(&poses, inner, outer, &mut scratch).unwrap();
+        let one = model.in_collision_with_margin(&poses, inner, &mut scratch).unwrap();
+        let two = model.in_collision_with_margin(&poses, outer, &mut scratch).unwrap();
+        prop_assert_eq!(both, (one, two));
+        let gap = (q[0] * q[0] + q[1] * q[1] + q[2] * q[2]).sqrt() - R - radius;
+        for (hit, m) in [(one, inner), (two, outer)] {
+            if (gap - m).abs() > 1e-9 {
+                prop_assert_eq!(hit, gap <= m, "gap {} margin {}", gap, m);
+            }
         }
     }
 }

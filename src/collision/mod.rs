@@ -312,6 +312,34 @@ impl CollisionModel {
             return Err(CollisionError::InvalidMargin { margin });
         }
         self.update(poses, scratch)?;
+        self.any_within(margin, scratch)
+    }
+
+    /// Two margins at one placement of the colliders: (any checked pair within `inner`, any
+    /// within `outer`), the answers of two [`CollisionModel::in_collision_with_margin`] calls.
+    /// The inner test runs only when the outer one finds something.
+    pub fn within_margins(
+        &self,
+        poses: &[Pose],
+        inner: f64,
+        outer: f64,
+        scratch: &mut CollisionScratch,
+    ) -> Result<(bool, bool), CollisionError> {
+        for margin in [inner, outer] {
+            if !(margin.is_finite() && margin >= 0.0) {
+                return Err(CollisionError::InvalidMargin { margin });
+            }
+        }
+        self.update(poses, scratch)?;
+        if !self.any_within(outer, scratch)? {
+            return Ok((false, false));
+        }
+        Ok((self.any_within(inner, scratch)?, true))
+    }
+
+    /// Whether any checked pair, placed by the last [`CollisionModel::update`], is within
+    /// `margin`.
+    fn any_within(&self, margin: f64, scratch: &CollisionScratch) -> Result<bool, CollisionError> {
         for &(i, j) in &self.pairs {
             let (i, j) = (i as usize, j as usize);
             let (a, pa, ba) = self.placed(scratch, i);
